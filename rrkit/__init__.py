@@ -1,0 +1,24 @@
+"""rrkit: beat-to-beat interval processing done right.
+
+Read RR-interval, R-peak, ECG and annotation files; correct artifacts with an audit of every
+beat; compute HRV metrics per analysis window; build daily tables with baselines; measure the
+agreement of device-reported values with recomputed ones.
+
+rrkit is not a medical device and makes no diagnosis.
+"""
+
+from ._version import __version__
+from .clean import CleanResult, CleanSummary
+from .errors import InputError, QualityWarning, RrkitWarning
+from .recording import ReadInfo, Recording
+
+__all__ = [
+    "CleanResult",
+    "CleanSummary",
+    "InputError",
+    "QualityWarning",
+    "ReadInfo",
+    "Recording",
+    "RrkitWarning",
+    "__version__",
+]
