@@ -1,0 +1,18 @@
+"""Figures (matplotlib, imported lazily inside each function; PNG, SVG or PDF by the suffix).
+
+- `recording_diagnostic`: tachogram with every artifact class and the corrected series, the
+  spectrum with its bands and powers, and the Poincaré plot with SD1/SD2;
+- `athlete_trend`: daily ln-RMSSD, its 7-day mean, the normal band, flagged and rejected days
+  and the training load;
+- `squad_overview`: one row per athlete, one column per day, the 7-day mean relative to the
+  band.
+
+Colours are colour-blind safe (Okabe-Ito, and ColorBrewer's red-blue for the overview) and each
+class also has its own marker. Every function returns the `matplotlib.figure.Figure` and writes
+it when given a path.
+"""
+
+from ._diagnostic import recording_diagnostic
+from ._trend import athlete_trend, band_position, squad_overview
+
+__all__ = ["athlete_trend", "band_position", "recording_diagnostic", "squad_overview"]
