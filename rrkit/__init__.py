@@ -8,11 +8,13 @@ rrkit is not a medical device and makes no diagnosis.
 """
 
 from ._version import __version__
+from .agreement import AgreementResult, agreement
 from .clean import CleanResult, CleanSummary
 from .errors import InputError, QualityWarning, RrkitWarning
 from .recording import ReadInfo, Recording
 
 __all__ = [
+    "AgreementResult",
     "CleanResult",
     "CleanSummary",
     "InputError",
@@ -21,4 +23,5 @@ __all__ = [
     "Recording",
     "RrkitWarning",
     "__version__",
+    "agreement",
 ]
