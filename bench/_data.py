@@ -1,0 +1,182 @@
+"""Benchmark inputs: seeded simulated nights and a season of morning files (invented data).
+
+Everything is made with rrkit's own seeded simulators (`rrkit.simulate.simulate_rr`,
+`rrkit.simulate.inject_artifacts`), so each input has a known ground truth. Files that take a
+while to write (the season) are cached under ``bench/_cache/`` (ignored by git) and rebuilt when
+their parameters change.
+"""
+
+from __future__ import annotations
+
+import json
+import shutil
+from dataclasses import dataclass
+from datetime import datetime, timedelta, timezone
+from pathlib import Path
+from typing import Any
+
+import numpy as np
+
+from ._nk import FS_HZ
+
+__all__ = ["CACHE_DIR", "Night", "make_night", "make_season", "write_rr_file"]
+
+CACHE_DIR = Path(__file__).resolve().parent / "_cache"
+
+
+@dataclass
+class Night:
+    """A simulated night with injected artifacts.
+
+    Attributes
+    ----------
+    truth : rrkit.Recording
+        The artifact-free series.
+    recording : rrkit.Recording
+        The series with artifacts, rebuilt from `peaks` (what both sides receive).
+    peaks : numpy.ndarray of int
+        Beat positions as sample indices at `FS_HZ` (1 ms resolution).
+    artifact_intervals : numpy.ndarray of int
+        Indices (into ``recording``'s intervals) of the injected artifacts.
+    truth_labels : numpy.ndarray of str or None
+        The true label of every interval of ``recording``, when the simulator gives it.
+    """
+
+    truth: Any
+    recording: Any
+    peaks: np.ndarray
+    artifact_intervals: np.ndarray
+    truth_labels: np.ndarray | None
+
+
+def _truth_labels(truth: Any, n: int) -> np.ndarray:
+    """The per-interval true labels from what `inject_artifacts` returned."""
+    for name in ("labels", "label", "true_labels"):
+        lab = getattr(truth, name, None)
+        if lab is None and isinstance(truth, dict):
+            lab = truth.get(name)
+        if lab is not None:
+            lab = np.asarray(lab).astype(str)
+            if lab.shape == (n,):
+                return lab
+    raise RuntimeError(
+        "cannot find the per-interval true labels in what rrkit.simulate.inject_artifacts "
+        f"returned ({type(truth).__name__}); the bench needs them to score the cleaning")
+
+
+def _truth_rr(truth: Any) -> Any:
+    for name in ("clean", "truth", "recording", "clean_recording", "rr_ms", "clean_rr_ms"):
+        v = getattr(truth, name, None)
+        if v is None and isinstance(truth, dict):
+            v = truth.get(name)
+        if v is not None:
+            return v
+    return None
+
+
+def make_night(*, duration_s: float = 8 * 3600.0, artifact_rate: float = 0.02,
+               seed: int = 8) -> Night:
+    """A seeded night: ``duration_s`` of resting-like beats with ``artifact_rate`` artifacts."""
+    from rrkit import Recording
+    from rrkit.simulate import inject_artifacts, simulate_rr
+
+    clean = simulate_rr(duration_s=duration_s, seed=seed, mean_rr_ms=1000.0)
+    art, truth = inject_artifacts(clean, rate=artifact_rate, seed=seed + 1)
+    # Same peaks for both sides: integer samples at FS_HZ, as an ECG detector would give them.
+    peaks = np.round(np.asarray(art.beat_times_s) * FS_HZ).astype(np.int64)
+    keep = np.concatenate(([True], np.diff(peaks) > 0))
+    if not keep.all():  # two beats in one sample after rounding cannot happen at 1 kHz in sinus
+        raise RuntimeError("rounding to samples merged beats")
+    rec = Recording.from_peak_times(peaks / FS_HZ)
+    labels = _truth_labels(truth, rec.n_intervals)
+    art_idx = np.flatnonzero(labels != "normal")
+    t_rr = _truth_rr(truth)
+    truth_rec = clean
+    if isinstance(t_rr, Recording):
+        truth_rec = t_rr
+    return Night(truth=truth_rec, recording=rec, peaks=peaks, artifact_intervals=art_idx,
+                 truth_labels=labels)
+
+
+def write_rr_file(path: Path, recording: Any) -> Path:
+    """Write an RR file (ms, one value a line) with rrkit's writer."""
+    from rrkit.io import write_rr
+
+    path.parent.mkdir(parents=True, exist_ok=True)
+    write_rr(path, recording)
+    return path
+
+
+# --------------------------------------------------------------------------- season
+def _stamp(params: dict[str, Any]) -> str:
+    return json.dumps(params, sort_keys=True)
+
+
+def make_season(
+    root: Path,
+    *,
+    n_subjects: int = 12,
+    n_days: int = 180,
+    seconds: float = 360.0,
+    artifact_rate: float = 0.01,
+    n_nights: int = 0,
+    night_s: float = 8 * 3600.0,
+    seed: int = 5,
+) -> dict[str, Any]:
+    """Write a season of morning RR files (one per subject per day) and a manifest CSV.
+
+    Layout: ``root/files/<subject>/<subject>_<YYYY-MM-DD>.txt`` plus ``root/manifest.csv``
+    (``path, subject, start``) and, when ``n_nights`` > 0, ``root/nights/`` with its own
+    ``manifest.csv``. Reused when ``root/params.json`` matches the parameters.
+    """
+    from rrkit.simulate import inject_artifacts, simulate_rr
+
+    params = {"n_subjects": n_subjects, "n_days": n_days, "seconds": seconds,
+              "artifact_rate": artifact_rate, "n_nights": n_nights, "night_s": night_s,
+              "seed": seed, "layout": 2}
+    stamp = root / "params.json"
+    if stamp.is_file() and stamp.read_text() == _stamp(params):
+        return _season_index(root)
+    if root.exists():
+        shutil.rmtree(root)
+    (root / "files").mkdir(parents=True)
+    rng = np.random.default_rng(seed)
+    day0 = datetime(2026, 3, 2, tzinfo=timezone.utc)
+    rows = ["path,subject,start"]
+    for s in range(n_subjects):
+        subject = f"S{s + 1:02d}"
+        base_rr = rng.uniform(900.0, 1200.0)
+        base_amp = rng.uniform(15.0, 45.0)
+        for d in range(n_days):
+            start = day0 + timedelta(days=d, hours=6, minutes=int(rng.integers(0, 90)))
+            rec = simulate_rr(duration_s=seconds, seed=rng,
+                              mean_rr_ms=base_rr + rng.normal(0, 30.0),
+                              resp_amp_ms=max(5.0, base_amp * rng.lognormal(0.0, 0.15)))
+            if artifact_rate > 0:
+                rec, _ = inject_artifacts(rec, rate=artifact_rate, seed=rng)
+            rel = Path("files") / subject / f"{subject}_{start:%Y-%m-%d}.txt"
+            write_rr_file(root / rel, rec)
+            rows.append(f"{rel.as_posix()},{subject},{start.isoformat()}")
+    (root / "manifest.csv").write_text("\n".join(rows) + "\n")
+    if n_nights:
+        (root / "nights").mkdir()
+        nrows = ["path,subject,start"]
+        for k in range(n_nights):
+            subject = f"S{k % n_subjects + 1:02d}"
+            start = day0 + timedelta(days=k, hours=-1)
+            rec = simulate_rr(duration_s=night_s, seed=rng)
+            if artifact_rate > 0:
+                rec, _ = inject_artifacts(rec, rate=artifact_rate, seed=rng)
+            rel = Path(f"night_{k:02d}_{subject}.txt")
+            write_rr_file(root / "nights" / rel, rec)
+            nrows.append(f"{rel.as_posix()},{subject},{start.isoformat()}")
+        (root / "nights" / "manifest.csv").write_text("\n".join(nrows) + "\n")
+    stamp.write_text(_stamp(params))
+    return _season_index(root)
+
+
+def _season_index(root: Path) -> dict[str, Any]:
+    files = sorted((root / "files").rglob("*.txt"))
+    nights = sorted((root / "nights").glob("*.txt")) if (root / "nights").is_dir() else []
+    return {"root": root, "files": files, "manifest": root / "manifest.csv",
+            "nights": nights, "nights_manifest": root / "nights" / "manifest.csv"}
