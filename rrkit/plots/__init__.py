@@ -4,6 +4,8 @@
   spectrum with its bands and powers, and the Poincaré plot with SD1/SD2;
 - `athlete_trend`: daily ln-RMSSD, its 7-day mean, the normal band, flagged and rejected days
   and the training load;
+- `bland_altman`: differences of device-reported values against recomputed ones, with bias,
+  limits of agreement and their confidence intervals (Bland & Altman 1986);
 - `squad_overview`: one row per athlete, one column per day, the 7-day mean relative to the
   band.
 
@@ -12,7 +14,9 @@ class also has its own marker. Every function returns the `matplotlib.figure.Fig
 it when given a path.
 """
 
+from ._agreement import bland_altman
 from ._diagnostic import recording_diagnostic
 from ._trend import athlete_trend, band_position, squad_overview
 
-__all__ = ["athlete_trend", "band_position", "recording_diagnostic", "squad_overview"]
+__all__ = ["athlete_trend", "band_position", "bland_altman", "recording_diagnostic",
+           "squad_overview"]
