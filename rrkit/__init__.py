@@ -11,6 +11,7 @@ from ._version import __version__
 from .agreement import AgreementResult, agreement
 from .clean import CleanResult, CleanSummary
 from .errors import InputError, QualityWarning, RrkitWarning
+from .io import read, write_rr
 from .recording import ReadInfo, Recording
 
 __all__ = [
@@ -24,4 +25,6 @@ __all__ = [
     "RrkitWarning",
     "__version__",
     "agreement",
+    "read",
+    "write_rr",
 ]

@@ -1,0 +1,12 @@
+"""Readers and writers: RR intervals, peak times, ECG and WFDB annotations into a `Recording`.
+
+`read` is the one entry point; `write_rr` writes a plain one-value-a-line RR file. The HDF5
+store lives in `rrkit.io.store`.
+"""
+
+from ._ecg import DEFAULT_DETECTOR, DETECTORS
+from ._read import KINDS, UNITS, read
+from ._wfdb_symbols import BEAT_SYMBOLS
+from ._write import write_rr
+
+__all__ = ["BEAT_SYMBOLS", "DEFAULT_DETECTOR", "DETECTORS", "KINDS", "UNITS", "read", "write_rr"]

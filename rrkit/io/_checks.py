@@ -1,0 +1,74 @@
+"""Checks shared by every reader: positive intervals, increasing peaks, enough beats.
+
+Each failure is an `InputError` naming the file and the line (when the values came from a text
+file) with what was found and what was expected.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+
+from ..errors import InputError
+
+__all__ = ["MIN_INTERVALS", "check_enough", "peaks_to_seconds", "rr_to_ms"]
+
+#: fewest intervals a reader accepts: with fewer there is not even one successive difference
+#: pair to analyse (RMSSD needs two intervals, a spectrum far more)
+MIN_INTERVALS = 3
+
+_TO_S = {"s": 1.0, "ms": 1e-3}
+
+
+def _line(lines: np.ndarray | None, j: int) -> int | None:
+    return None if lines is None else int(lines[j])
+
+
+def rr_to_ms(values: np.ndarray, *, unit: str, fs_hz: float | None, path: str,
+             lines: np.ndarray | None, column: str | None) -> np.ndarray:
+    """RR values in ``unit`` -> milliseconds; InputError for zero or negative intervals."""
+    bad = np.flatnonzero(values <= 0)
+    if bad.size:
+        j = int(bad[0])
+        more = f" ({bad.size} such values)" if bad.size > 1 else ""
+        where = f" in column {column!r}" if column else ""
+        raise InputError(
+            f"found an RR interval of {values[j]:g}{where}{more}, expected intervals > 0",
+            path=path, line=_line(lines, j),
+            hint="zero or negative intervals cannot come from a heartbeat; check the export")
+    if unit == "samples":
+        if fs_hz is None:
+            raise InputError("RR intervals in samples need the sampling rate", path=path,
+                             hint="pass fs= in Hz")
+        return values * (1000.0 / fs_hz)
+    return values * (1000.0 if unit == "s" else 1.0)
+
+
+def peaks_to_seconds(values: np.ndarray, *, unit: str, fs_hz: float | None, path: str,
+                     lines: np.ndarray | None, column: str | None) -> np.ndarray:
+    """Peak times in ``unit`` -> seconds; InputError when a peak does not follow its predecessor."""
+    d = np.diff(values)
+    bad = np.flatnonzero(d <= 0)
+    if bad.size:
+        j = int(bad[0]) + 1
+        verb = "repeats" if d[j - 1] == 0 else "goes backwards from"
+        prev = f" (line {_line(lines, j - 1)})" if lines is not None else f" (value {j - 1})"
+        where = f" in column {column!r}" if column else ""
+        raise InputError(
+            f"peak time {values[j]:g}{where} {verb} {values[j - 1]:g}{prev}, expected peak times "
+            f"that increase ({bad.size} such steps)", path=path, line=_line(lines, j),
+            hint="sort the file, or pass kind='rr' if the values are intervals")
+    if unit == "samples":
+        if fs_hz is None:
+            raise InputError(
+                "peak positions in samples need the sampling rate to become times",
+                path=path, hint="pass fs= (the sampling rate in Hz)")
+        return values / fs_hz
+    return values * _TO_S[unit]
+
+
+def check_enough(n_intervals: int, *, path: str, what: str) -> None:
+    """InputError when fewer than `MIN_INTERVALS` intervals were found."""
+    if n_intervals < MIN_INTERVALS:
+        raise InputError(
+            f"found {n_intervals} interval{'s' if n_intervals != 1 else ''} ({what}), expected "
+            f"at least {MIN_INTERVALS} for any analysis (too few beats)", path=path)

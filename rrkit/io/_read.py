@@ -1,0 +1,174 @@
+"""`read`: one entry point for every input kind."""
+
+from __future__ import annotations
+
+import os
+from pathlib import Path
+
+from .._validation import check_option, check_range
+from ..errors import InputError
+from ..recording import Recording
+from ._ecg import DEFAULT_DETECTOR, DETECTORS
+from ._records import (
+    WFDB_ANNOTATION_EXTENSIONS,
+    read_edf,
+    read_wfdb_annotations,
+    read_wfdb_record,
+)
+from ._tabular import read_table
+
+__all__ = ["KINDS", "UNITS", "read"]
+
+KINDS = ("auto", "rr", "peaks", "ecg", "annotations")
+UNITS = ("auto", "ms", "s", "samples")
+_EDF_EXTENSIONS = (".edf", ".bdf", ".rec")
+_SEPARATORS = (None, ",", ";", "\t", " ", "none")
+#: default for ``break_s``: uncovered time between timestamps that marks a break (common
+#: practice: longer than any beat-to-beat interval, above the 1 s resolution of most exports)
+DEFAULT_BREAK_S = 2.0
+
+
+def _format_of(p: Path) -> str:
+    """``"edf"``, ``"wfdb"``, ``"annotations"`` or ``"text"`` from the name and neighbours."""
+    suffix = p.suffix.lower()
+    if suffix in _EDF_EXTENSIONS:
+        return "edf"
+    if suffix in (".hea", ".dat"):
+        return "wfdb"
+    if suffix in WFDB_ANNOTATION_EXTENSIONS:
+        return "annotations"
+    if suffix == "" and not p.exists() and Path(str(p) + ".hea").is_file():
+        return "wfdb"
+    return "text"
+
+
+def read(
+    path: str | os.PathLike[str],
+    *,
+    kind: str = "auto",
+    unit: str = "auto",
+    fs: float | None = None,
+    column: str | int | None = None,
+    subject: str | None = None,
+    detector: str = DEFAULT_DETECTOR,
+    timestamp_column: str | int | None = None,
+    break_s: float | None = DEFAULT_BREAK_S,
+    sep: str | None = None,
+    decimal: str | None = None,
+) -> Recording:
+    """Read a beat-to-beat file (RR intervals, peak times, raw ECG or WFDB annotations).
+
+    Parameters
+    ----------
+    path : str or path-like
+        The file. Text (``.txt``, ``.csv``, ``.tsv``, any name; ``.gz`` compressed allowed), EDF
+        (``.edf``, ``.bdf``), a WFDB record (``.hea``, ``.dat`` or the record prefix) or a WFDB
+        annotation file (``.atr``, ``.qrs``, ...).
+    kind : {"auto", "rr", "peaks", "ecg", "annotations"}
+        What the file holds. ``"auto"`` decides from the file type, the column names, then the
+        values (strictly increasing values with heartbeat-sized steps are peak times); the rule
+        used is kept in ``info.kind_decided_by``.
+    unit : {"auto", "ms", "s", "samples"}
+        Unit of the values (RR intervals or peak times). ``"auto"`` decides from the column name,
+        then the range: median RR (or median step between peaks) in 200-3000 is ms, in 0.2-3.0
+        is s; a range fitting neither is an error asking for ``unit=``. ``"samples"`` needs
+        ``fs``. Kept in ``info.unit_decided_by``.
+    fs : float, optional
+        Sampling rate in Hz: required for sample indices and for an ECG column in a text file
+        (there is no default). EDF and WFDB files carry it in their header; a different ``fs``
+        is an error.
+    column : str or int, optional
+        Column name or 0-based index of the values (text tables), or channel label or index
+        (EDF, WFDB). Default: found from the names (see Notes).
+    subject : str, optional
+        Subject id stored in the recording.
+    detector : str
+        R-peak detector of ``neurokit2.ecg_peaks`` for ECG (default ``"neurokit"``,
+        neurokit2's own default). Kept in ``info.extra["detector"]``.
+    timestamp_column : str or int, optional
+        Column of ISO 8601 times or Unix epoch numbers; default: found by content.
+    break_s : float or None
+        With timestamps beside RR intervals, uncovered time longer than this (s) between two
+        rows is a recording break, kept as one gap interval (default 2.0 s). None disables.
+    sep, decimal : str, optional
+        Force the separator (``","``, ``";"``, ``"\\t"``, ``" "``, ``"none"``) or the decimal
+        mark (``"."``, ``","``) of a text file; by default both are found from the data rows.
+
+    Returns
+    -------
+    Recording
+        ``info`` says how the file was read (kind, unit, how each was decided, column, fs, and
+        in ``info.extra`` the separator, header line, timestamps, breaks, ECG detector,
+        inverted lead and detection quality).
+
+    Raises
+    ------
+    InputError
+        Any file that cannot be read as asked: missing, empty, binary, non-numeric or
+        non-finite values, zero or negative intervals, peak times going backwards, mixed units,
+        fewer than 3 intervals, a needed sampling rate missing, no beats in an ECG. The message
+        names the file, the line, what was found and what was expected.
+
+    Warns
+    -----
+    QualityWarning
+        An ECG whose detected beats match their median shape poorly, or that is largely
+        unusable (flat, clipped, missing).
+
+    Notes
+    -----
+    Values that are possible but implausible (an RR of 150 ms or 4000 ms) are kept: artifact
+    correction deals with them. A reader never drops data silently; rows of non-beat
+    annotations (``+``, ``~``) in a table with a symbol column are skipped and counted in
+    ``info.extra``.
+
+    Examples
+    --------
+    >>> import tempfile, pathlib
+    >>> f = pathlib.Path(tempfile.mkdtemp()) / "rr.txt"
+    >>> _ = f.write_text("812\\n790\\n805\\n821\\n")
+    >>> rec = read(f)
+    >>> rec.rr_ms.tolist(), rec.info.unit
+    ([812.0, 790.0, 805.0, 821.0], 'ms')
+    """
+    kind = check_option("kind", kind, KINDS)
+    unit = check_option("unit", unit, UNITS)
+    detector = check_option("detector", detector, DETECTORS)
+    if fs is not None:
+        fs = check_range("fs", fs, low=0, low_inclusive=False, unit="Hz")
+    if break_s is not None:
+        break_s = check_range("break_s", break_s, low=0, low_inclusive=False, unit="s")
+    sep = check_option("sep", sep, _SEPARATORS)
+    decimal = check_option("decimal", decimal, (None, ".", ","))
+    p = Path(os.fspath(path))
+    fmt = _format_of(p)
+    if fmt != "wfdb" and not p.exists():
+        raise InputError("file not found", path=p, hint="check the path")
+    if fmt != "wfdb" and p.is_dir():
+        raise InputError("is a directory, expected a file", path=p)
+    src = str(p)
+    if kind == "annotations" or (kind == "auto" and fmt == "annotations"):
+        if fmt == "text" and p.suffix:
+            raise InputError(
+                "kind='annotations' reads WFDB annotation files; a text table of beats is read "
+                "with kind='peaks'", path=p)
+        by = "given" if kind == "annotations" else f"WFDB annotation extension {p.suffix!r}"
+        if fmt == "wfdb":  # record name given: use its reference annotations
+            p = Path(str(p.with_suffix("")) + ".atr")
+        return read_wfdb_annotations(str(p), fs_hz=fs, subject=subject, kind_decided_by=by)
+    if fmt in ("edf", "wfdb"):
+        if kind not in ("auto", "ecg"):
+            raise InputError(f"{fmt.upper()} files hold signals; read them with kind='ecg' "
+                             f"(got kind={kind!r})", path=p)
+        if unit != "auto":
+            raise InputError("unit= does not apply to ECG signals (their header gives the unit)",
+                             path=p)
+        by = "given" if kind == "ecg" else f"{fmt.upper()} file ({p.suffix or 'record name'})"
+        if fmt == "edf":
+            return read_edf(src, fs_hz=fs, column=column, detector=detector, subject=subject,
+                            kind_decided_by=by)
+        return read_wfdb_record(src, fs_hz=fs, column=column, detector=detector,
+                                subject=subject, kind_decided_by=by)
+    return read_table(src, kind=kind, unit=unit, fs_hz=fs, column=column,
+                      timestamp_column=timestamp_column, subject=subject, break_s=break_s,
+                      sep=sep, decimal=decimal, detector=detector)

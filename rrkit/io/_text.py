@@ -1,0 +1,318 @@
+"""Text files as tables: bytes, gzip, encodings, line ends, comments, header lines, separators.
+
+This module knows nothing about heartbeats. It turns a file into a `TextTable`: one list of
+string tokens per column, the 1-based line number of every data row, and a record of every
+decision it took (separator, decimal mark, header line, encoding) so the caller can report it.
+
+Rules (each recorded in `TextTable.extra`):
+
+- ``.gz`` content is recognised by its magic bytes, whatever the file name says.
+- A NUL byte, or more than 1 % control characters, means the file is binary, not text.
+- UTF-8 (with or without BOM) first; files that are not valid UTF-8 are read as cp1252.
+- ``\\r\\n``, ``\\r`` and ``\\n`` all end a line; line numbers count every physical line.
+- ``#`` starts a comment (whole line or trailing); blank lines are skipped.
+- Lines before the first line holding a number (or an ISO 8601 date) are header lines; the last
+  of them names the columns when it has as many fields as the data rows.
+- Separator: ``;`` if the data rows hold one, else tab, else ``,``, else runs of spaces, else a
+  single column. A single column whose rows all look like ``812,5`` uses a decimal comma. With
+  ``;``, tab or space separators a ``,`` inside numbers is a decimal comma.
+"""
+
+from __future__ import annotations
+
+import gzip
+import os
+import re
+import zlib
+from dataclasses import dataclass, field
+from pathlib import Path
+from typing import Any
+
+import numpy as np
+
+from ..errors import InputError
+
+__all__ = ["TextTable", "load_table", "parse_numbers", "read_text"]
+
+_GZIP_MAGIC = b"\x1f\x8b"
+_SNIFF_BYTES = 65536
+_MAX_CONTROL_FRACTION = 0.01
+_SNIFF_ROWS = 200
+
+_NUMBER_RE = re.compile(r"^[+-]?(?:\d+(?:[.,]\d*)?|[.,]\d+)(?:[eE][+-]?\d+)?$")
+_SPECIAL_RE = re.compile(r"^[+-]?(?:nan|inf|infinity)$", re.IGNORECASE)
+_ISO_RE = re.compile(r"^\d{4}-\d{2}-\d{2}(?:[T ]\d{2}:\d{2}(?::\d{2}(?:[.,]\d+)?)?)?(?:Z|[+-]\d{2}:?\d{2})?$")
+_DECIMAL_COMMA_RE = re.compile(r"^[+-]?\d*,\d+$")
+_TOKEN_SPLIT_RE = re.compile(r"[,;\t ]+")
+_CONTROL_RE = re.compile(r"[\x00-\x08\x0b\x0e-\x1f\x7f]")
+
+_SEP_NAMES = {";": "semicolon", "\t": "tab", ",": "comma", None: "none (one column)", " ": "spaces"}
+
+
+@dataclass(frozen=True)
+class TextTable:
+    """A text file split into columns of string tokens.
+
+    Attributes
+    ----------
+    path : str
+        The file.
+    names : list of str
+        Column names (from the header line, else ``"column 1"``, ``"column 2"``, ...).
+    named : bool
+        True when the names come from a header line.
+    columns : list of list of str
+        Tokens per column, stripped of surrounding spaces.
+    line_numbers : numpy.ndarray of int
+        1-based line number of each data row.
+    separator : str or None
+        ``";"``, ``"\\t"``, ``","``, ``" "`` (runs of spaces) or None (one column).
+    decimal : str
+        ``"."`` or ``","``.
+    extra : dict
+        How the file was read (encoding, gzip, BOM, header line, skipped lines ...).
+    """
+
+    path: str
+    names: list[str]
+    named: bool
+    columns: list[list[str]]
+    line_numbers: np.ndarray
+    separator: str | None
+    decimal: str
+    extra: dict[str, Any] = field(default_factory=dict)
+
+    @property
+    def n_rows(self) -> int:
+        return int(self.line_numbers.size)
+
+    def line_of(self, row: int) -> int:
+        """1-based file line of data row ``row``."""
+        return int(self.line_numbers[row])
+
+
+def read_text(path: str | os.PathLike[str]) -> tuple[str, dict[str, Any]]:
+    """Return the decoded text of ``path`` and how it was decoded; InputError for non-text."""
+    p = Path(path)
+    if not p.exists():
+        raise InputError("file not found", path=p, hint="check the path")
+    if p.is_dir():
+        raise InputError("is a directory, expected a file", path=p)
+    try:
+        raw = p.read_bytes()
+    except OSError as exc:
+        raise InputError(f"cannot read the file ({exc.strerror or exc})", path=p) from None
+    info: dict[str, Any] = {"gzip": False}
+    if raw[:2] == _GZIP_MAGIC:
+        try:
+            raw = gzip.decompress(raw)
+        except (OSError, EOFError, zlib.error) as exc:
+            raise InputError(f"damaged gzip data ({exc}), expected a complete .gz file",
+                             path=p) from None
+        info["gzip"] = True
+    if not raw.strip():
+        raise InputError("the file is empty, expected beat data", path=p)
+    head = raw[:_SNIFF_BYTES]
+    nul = head.find(b"\x00")
+    if nul >= 0:
+        raise InputError(f"binary data (a NUL byte at byte {nul}), expected a text file",
+                         path=p, hint="for EDF or WFDB files use their extension (.edf, .hea, .atr)")
+    info["bom"] = raw.startswith(b"\xef\xbb\xbf")
+    try:
+        text = raw.decode("utf-8-sig")
+        info["encoding"] = "utf-8"
+    except UnicodeDecodeError:
+        text = raw.decode("cp1252", errors="replace")
+        info["encoding"] = "cp1252"
+    sample = text[:_SNIFF_BYTES]
+    n_control = len(_CONTROL_RE.findall(sample))
+    n_replaced = sample.count("\ufffd") if info["encoding"] == "cp1252" else 0
+    if (n_control + n_replaced) > _MAX_CONTROL_FRACTION * max(len(sample), 1):
+        raise InputError(
+            f"binary data ({n_control + n_replaced} control or undecodable characters in the "
+            f"first {len(sample)}), expected a text file", path=p)
+    return text, info
+
+
+def _is_value_token(tok: str) -> bool:
+    return bool(_NUMBER_RE.match(tok) or _SPECIAL_RE.match(tok) or _ISO_RE.match(tok))
+
+
+def _holds_value(line: str) -> bool:
+    if _is_value_token(line):
+        return True
+    return any(_is_value_token(t) for t in _TOKEN_SPLIT_RE.split(line) if t)
+
+
+def _split(line: str, sep: str | None) -> list[str]:
+    if sep is None:
+        return [line]
+    if sep == " ":
+        return line.split()
+    return [t.strip() for t in line.split(sep)]
+
+
+def _choose_separator(rows: list[str], header: str | None) -> tuple[str | None, str]:
+    """Separator and decimal mark from sample data rows (see the module notes)."""
+    def share(ch: str) -> float:
+        return sum(ch in r for r in rows) / len(rows)
+
+    if share(";") > 0.5:
+        sep = ";"
+    elif share("\t") > 0.5:
+        sep = "\t"
+    elif share(",") > 0.5:
+        if all(_DECIMAL_COMMA_RE.match(r) or _NUMBER_RE.match(r) for r in rows) and not (
+                header and ("," in header)):
+            return None, ","
+        sep = ","
+    elif any(" " in r for r in rows):
+        sep = " "
+    else:
+        return None, "."
+    tokens = [t for r in rows for t in _split(r, sep)]
+    if sep != "," and any("," in t for t in tokens if _NUMBER_RE.match(t)):
+        return sep, ","
+    return sep, "."
+
+
+def load_table(path: str | os.PathLike[str], *, sep: str | None = None,
+               decimal: str | None = None) -> TextTable:
+    """Split a text file into columns of tokens (see the module notes for the rules).
+
+    Parameters
+    ----------
+    path : path-like
+        The file (``.gz`` allowed).
+    sep : str, optional
+        Force the separator (``","``, ``";"``, ``"\\t"``, ``" "`` for runs of spaces, or
+        ``"none"`` for one column).
+    decimal : str, optional
+        Force the decimal mark (``"."`` or ``","``).
+
+    Raises
+    ------
+    InputError
+        Missing, empty or binary file; no data rows; rows with differing field counts.
+    """
+    text, extra = read_text(path)
+    path_s = str(path)
+    lines = text.replace("\r\n", "\n").replace("\r", "\n").split("\n")
+    if lines and lines[-1] == "":
+        lines.pop()
+    has_hash = "#" in text
+    content: list[str] = []
+    numbers: list[int] = []
+    n_comment = 0
+    for i, raw in enumerate(lines, 1):
+        if has_hash and "#" in raw:
+            if raw.lstrip().startswith("#"):
+                n_comment += 1
+                continue
+            raw = raw.split("#", 1)[0]
+        s = raw.strip()
+        if s:
+            content.append(s)
+            numbers.append(i)
+    extra["n_comment_lines"] = n_comment
+    extra["n_blank_lines"] = len(lines) - len(content) - n_comment
+    if not content:
+        raise InputError("the file holds only comments and blank lines, expected beat data",
+                         path=path_s)
+    first = 0
+    while first < len(content) and not _holds_value(content[first]):
+        first += 1
+    if first == len(content):
+        raise InputError(
+            f"no numbers found (line {numbers[0]}: {content[0][:60]!r}), expected beat data",
+            path=path_s)
+    header = content[first - 1] if first else None
+    header_line = numbers[first - 1] if first else None
+    data = content[first:]
+    data_lines = np.asarray(numbers[first:], dtype=np.int64)
+    sample = data[:_SNIFF_ROWS]
+    if sep is None:
+        chosen_sep, chosen_dec = _choose_separator(sample, header)
+    else:
+        chosen_sep = None if sep in ("none", "") else sep
+        chosen_dec = "."
+        if chosen_sep not in (None, ",") and any(
+                "," in t for r in sample for t in _split(r, chosen_sep) if _NUMBER_RE.match(t)):
+            chosen_dec = ","
+    if decimal is not None:
+        chosen_dec = decimal
+    if chosen_sep == "," and chosen_dec == ",":
+        raise InputError("a comma cannot be both the separator and the decimal mark",
+                         path=path_s, hint="pass sep=';' or decimal='.'")
+    rows = [_split(r, chosen_sep) for r in data] if chosen_sep is not None else None
+    n_fields = 1 if rows is None else len(rows[0])
+    if rows is not None:
+        lens = np.fromiter((len(r) for r in rows), dtype=np.int64, count=len(rows))
+        bad = np.flatnonzero(lens != n_fields)
+        if bad.size:
+            j = int(bad[0])
+            raise InputError(
+                f"found {lens[j]} fields ({data[j][:60]!r}), expected {n_fields} like line "
+                f"{data_lines[0]} ({_SEP_NAMES[chosen_sep]}-separated)",
+                path=path_s, line=int(data_lines[j]))
+        columns = [list(c) for c in zip(*rows, strict=True)]
+    else:
+        columns = [data]
+    names = [f"column {k + 1}" for k in range(n_fields)]
+    named = False
+    n_preamble = first
+    if header is not None:
+        fields = _split(header, chosen_sep) if n_fields > 1 else [header]
+        if len(fields) == n_fields:
+            names = [f.strip().strip('"').strip("'") or names[k] for k, f in enumerate(fields)]
+            named = True
+            n_preamble -= 1
+    extra.update({
+        "separator": _SEP_NAMES[chosen_sep],
+        "decimal": chosen_dec,
+        "header_line": header_line if named else None,
+        "n_preamble_lines": n_preamble,
+    })
+    return TextTable(path_s, names, named, columns, data_lines, chosen_sep, chosen_dec, extra)
+
+
+def parse_numbers(table: TextTable, col: int, *, what: str = "a number") -> np.ndarray:
+    """Column ``col`` as float64; InputError at the first token that is not a finite number."""
+    tokens = table.columns[col]
+    if table.decimal == ",":
+        tokens = "\n".join(tokens).replace(",", ".").split("\n")
+    try:
+        values = np.array(tokens, dtype=np.float64)
+    except ValueError:
+        values = None
+    if values is not None and values.shape != (len(tokens),):
+        values = None
+    if values is None:
+        for j, tok in enumerate(tokens):
+            try:
+                float(tok)
+            except ValueError:
+                raise InputError(
+                    f"found {table.columns[col][j]!r} in column {table.names[col]!r}, "
+                    f"expected {what}", path=table.path, line=table.line_of(j)) from None
+        values = np.array([float(t) for t in tokens], dtype=np.float64)
+    bad = np.flatnonzero(~np.isfinite(values))
+    if bad.size:
+        j = int(bad[0])
+        more = f" ({bad.size} such values)" if bad.size > 1 else ""
+        raise InputError(
+            f"found {table.columns[col][j]!r} in column {table.names[col]!r}{more}, expected a "
+            f"finite number", path=table.path, line=table.line_of(j),
+            hint="remove or fix missing values; a reader never drops rows silently")
+    return values
+
+
+def column_type(table: TextTable, col: int) -> str:
+    """``"number"``, ``"timestamp"`` or ``"text"`` from the first rows of column ``col``."""
+    toks = table.columns[col][:_SNIFF_ROWS]
+    if all(_ISO_RE.match(t) for t in toks):
+        return "timestamp"
+    numeric = sum(bool(_NUMBER_RE.match(t) or _SPECIAL_RE.match(t)) for t in toks)
+    if numeric >= 0.5 * len(toks):
+        return "number"
+    return "text"
