@@ -1,0 +1,42 @@
+"""Batch processing of a folder of recordings into a daily table.
+
+Public entry point: `run_daily` (also the ``rrkit daily`` command). The parts:
+
+* discovery (`discover`, `read_manifest`, `FilenamePattern`): which files are recordings and
+  whose and when each one is (manifest > file-name pattern > time stamps in the file);
+* executors (`Executor`, `LocalExecutor`, `InlineExecutor`): where the per-file work runs;
+* resume: per-input results cached by SHA-256 and settings hash in the output folder;
+* outputs, all written atomically: daily table (CSV, Parquet), weekly and per-recording
+  tables, ``errors.csv``, the HDF5 store and the provenance;
+* untrusted strings (`safe_name`, `neutralize_cells`).
+"""
+
+from ._atomic import atomic_path, atomic_write_bytes, atomic_write_text
+from ._discover import DEFAULT_EXTENSIONS, Candidate, Discovery, discover, read_manifest
+from ._executor import Executor, InlineExecutor, LocalExecutor, default_jobs
+from ._pattern import DEFAULT_PATTERN, FilenamePattern
+from ._run import OUTPUT_NAMES, RunSummary, run_daily
+from ._safe import neutralize_cell, neutralize_cells, safe_name
+
+__all__ = [
+    "DEFAULT_EXTENSIONS",
+    "DEFAULT_PATTERN",
+    "OUTPUT_NAMES",
+    "Candidate",
+    "Discovery",
+    "Executor",
+    "FilenamePattern",
+    "InlineExecutor",
+    "LocalExecutor",
+    "RunSummary",
+    "atomic_path",
+    "atomic_write_bytes",
+    "atomic_write_text",
+    "default_jobs",
+    "discover",
+    "neutralize_cell",
+    "neutralize_cells",
+    "read_manifest",
+    "run_daily",
+    "safe_name",
+]

@@ -1,0 +1,152 @@
+"""The per-file work done in a worker process, and the resume cache of its results.
+
+A worker reads one file, cleans it, resolves the windows and computes the metrics
+(`rrkit.daily.measure_recording`) and returns a plain dict of numbers, strings and numpy
+arrays. Any exception becomes a result with ``ok=False``, the error type and a one-line
+message; warnings are recorded as notes (so a warnings-as-errors setting in the parent cannot
+turn a usable file into a failed one).
+
+The parent keeps one cache entry per input in ``<outdir>/.rrkit-cache/``, named by the input's
+SHA-256 and the hash of the per-file settings, written atomically. A re-run loads the entry
+instead of recomputing when both hashes are unchanged.
+"""
+
+from __future__ import annotations
+
+import contextlib
+import hashlib
+import json
+import os
+import warnings
+from pathlib import Path
+from typing import Any
+
+import numpy as np
+
+from ..daily import DailySettings, _plain, measure_recording
+from ._atomic import atomic_path
+
+__all__ = ["process_file", "settings_hash", "ResultCache", "ARRAY_NAMES"]
+
+#: Arrays a successful result carries (for the HDF5 store).
+ARRAY_NAMES = ("raw_beat_times_s", "raw_rr_ms", "raw_gaps", "labels", "changed",
+               "corrected_beat_times_s", "corrected_rr_ms", "corrected_gaps", "origin")
+CACHE_DIR = ".rrkit-cache"
+_CACHE_FORMAT = 1
+
+
+def settings_hash(settings: DailySettings) -> str:
+    """SHA-256 of the canonical JSON of the per-file settings (and the rrkit version)."""
+    text = json.dumps(settings.per_file_dict(), sort_keys=True, separators=(",", ":"))
+    return hashlib.sha256(text.encode()).hexdigest()
+
+
+def _one_line(text: str) -> str:
+    return " ".join(str(text).split())
+
+
+def process_file(task: tuple[str, str, str], *, settings: DailySettings) -> dict[str, Any]:
+    """Read, clean, window and measure one file; never raises for a bad file.
+
+    Parameters
+    ----------
+    task : (path, relpath, sha256)
+    settings : DailySettings
+
+    Returns
+    -------
+    dict
+        ``relpath, sha256, ok`` and, when ok: ``file_subject, file_start`` (ISO or None),
+        ``read_info``, ``clean_summary``, ``rows`` (one dict per window), ``warnings`` and
+        ``arrays`` (see `ARRAY_NAMES`); when not ok: ``error_type, message``.
+    """
+    path, relpath, sha = task
+    out: dict[str, Any] = {"relpath": relpath, "sha256": sha}
+    try:
+        from ..io import read
+
+        with warnings.catch_warnings(record=True) as caught:
+            warnings.simplefilter("always")
+            rec = read(path, kind=settings.kind, unit=settings.unit)
+            if rec.n_intervals == 0:
+                raise ValueError("the file holds no intervals")
+            rows, cr = measure_recording(rec, settings=settings)
+        notes = [f"{w.category.__name__}: {_one_line(w.message)}" for w in caught]
+        out.update(
+            ok=True,
+            file_subject=rec.subject,
+            file_start=None if rec.start is None else rec.start.isoformat(),
+            read_info=_plain(rec.info.to_dict()),
+            clean_summary=_plain(cr.summary.to_dict()),
+            rows=rows,
+            warnings=notes,
+            arrays={
+                "raw_beat_times_s": np.asarray(rec.beat_times_s),
+                "raw_rr_ms": np.asarray(rec.rr_ms),
+                "raw_gaps": np.asarray(rec.gaps),
+                "labels": np.asarray(cr.labels, dtype=str),
+                "changed": np.asarray(cr.changed, dtype=bool),
+                "corrected_beat_times_s": np.asarray(cr.recording.beat_times_s),
+                "corrected_rr_ms": np.asarray(cr.recording.rr_ms),
+                "corrected_gaps": np.asarray(cr.recording.gaps),
+                "origin": np.asarray(cr.origin, dtype=np.int64),
+            },
+        )
+    except Exception as exc:  # one bad file must never stop the run: report it instead
+        out.update(ok=False, error_type=type(exc).__name__, message=_one_line(str(exc)) or
+                   type(exc).__name__)
+    return out
+
+
+def broken_result(task, exc: BaseException) -> dict[str, Any]:
+    """The result for a file whose worker process died."""
+    return {"relpath": task[1], "sha256": task[2], "ok": False, "error_type": "WorkerDied",
+            "message": _one_line(f"the worker process stopped while reading this file: {exc}")}
+
+
+class ResultCache:
+    """Per-input results on disk, keyed by input SHA-256 and settings hash.
+
+    Each entry is one ``.npz`` file (arrays plus the JSON of the scalar fields; loaded with
+    ``allow_pickle=False``) written atomically. A missing, unreadable or foreign entry counts
+    as absent, so the worst a damaged cache can cause is a recomputation.
+    """
+
+    def __init__(self, outdir: str | os.PathLike[str], settings_digest: str) -> None:
+        self.folder = Path(outdir) / CACHE_DIR
+        self.folder.mkdir(parents=True, exist_ok=True)
+        self.digest = settings_digest
+
+    def _path(self, sha: str) -> Path:
+        return self.folder / f"{sha}-{self.digest[:16]}.npz"
+
+    def load(self, sha: str, relpath: str) -> dict[str, Any] | None:
+        p = self._path(sha)
+        if not p.is_file():
+            return None
+        try:
+            with np.load(p, allow_pickle=False) as z:
+                meta = json.loads(bytes(z["__meta__"]).decode("utf-8"))
+                if meta.get("format") != _CACHE_FORMAT or meta.get("settings") != self.digest \
+                        or meta.get("sha256") != sha:
+                    return None
+                result = meta["result"]
+                if result.get("ok"):
+                    result["arrays"] = {k: np.array(z[k]) for k in ARRAY_NAMES}
+        except Exception:  # a damaged entry is recomputed, never trusted
+            with contextlib.suppress(OSError):
+                p.unlink()
+            return None
+        result["relpath"] = relpath
+        return result
+
+    def store(self, result: dict[str, Any]) -> None:
+        scalar = {k: v for k, v in result.items() if k != "arrays"}
+        meta = {"format": _CACHE_FORMAT, "settings": self.digest, "sha256": result["sha256"],
+                "result": scalar}
+        payload = {"__meta__": np.frombuffer(json.dumps(meta).encode("utf-8"), dtype=np.uint8)}
+        if result.get("ok"):
+            payload.update(result["arrays"])
+        with atomic_path(self._path(result["sha256"]), fsync=False) as tmp:
+            with open(tmp, "wb") as fh:
+                np.savez(fh, **payload)

@@ -1,0 +1,121 @@
+"""``rrkit daily``: a folder of morning recordings -> one row per athlete per day, with baselines.
+
+Console example::
+
+    $ rrkit daily mornings/ -o season/                       # names like A01_2026-03-01_0712.txt
+    $ rrkit daily mornings/ --manifest mornings/manifest.csv --tz Europe/Berlin -o season/
+    $ rrkit daily mornings/ --pattern "{subject}/{date:%d.%m.%Y}*" --jobs 2 -o season/
+
+Exit codes: 0 every file succeeded; 1 some files failed (listed in ``errors.csv``, the rest
+written); 2 a usage error.
+"""
+
+from __future__ import annotations
+
+import re
+from pathlib import Path
+
+import click
+
+from ..errors import InputError
+
+CAUTION = ("rrkit is not a medical device and makes no diagnosis; a value outside the band is "
+           "a prompt to look at the data and the context. Training decisions rest with "
+           "qualified staff.")
+
+
+def _wake(text: str) -> tuple[str, str]:
+    m = re.fullmatch(r"\s*(\d{1,2}:\d{2})\s*-\s*(\d{1,2}:\d{2})\s*", text or "")
+    if not m:
+        raise InputError(f"--wake must read HH:MM-HH:MM; got {text!r}", hint="for example 04:00-12:00")
+    return tuple(f"{int(t.split(':')[0]):02d}:{t.split(':')[1]}" for t in m.groups())
+
+
+@click.command(name="daily", context_settings={"max_content_width": 100})
+@click.argument("folder", type=click.Path(exists=True, file_okay=False, path_type=Path))
+@click.option("-o", "--output", "outdir", required=True,
+              type=click.Path(file_okay=False, path_type=Path),
+              help="Output folder (created). Re-running into the same folder reuses the work "
+                   "already done for unchanged files.")
+@click.option("--manifest", type=click.Path(exists=True, dir_okay=False, path_type=Path),
+              help="CSV with path, subject and start (or date [+ time]); optional morning, "
+                   "position, protocol... Its rows win over the pattern.")
+@click.option("--pattern", help="File-name pattern with {subject}, {date}, {time}, {datetime} "
+                                "fields, * and [optional] parts. Default without a manifest: "
+                                "'{subject}_{date}[_{time}]*'.")
+@click.option("--window", "window", default="morning", show_default=True,
+              help="Analysis window inside each recording (morning = skip 60 s, analyse 300 s; "
+                   "also start:OFFSET+LENGTH, last:LENGTH, whole ...).")
+@click.option("--tz", default="UTC", show_default=True,
+              help="Time zone of the athletes' clocks (IANA name, e.g. Europe/Berlin); dates are "
+                   "local calendar dates there.")
+@click.option("--wake", default="04:00-12:00", show_default=True,
+              help="Wake-time window in which a morning recording starts (local clock).")
+@click.option("--pick", type=click.Choice(["first", "marked"]), default="first",
+              show_default=True,
+              help="Which recording of a day counts: the first usable one in the wake window, "
+                   "or the one the manifest marks (column morning).")
+@click.option("--clean", "clean_method", type=click.Choice(["drr", "median", "mad", "none"]),
+              default="drr", show_default=True, help="Artifact detection method.")
+@click.option("--baseline-days", type=int, default=60, show_default=True,
+              help="Calendar days of the long baseline (ending on each date).")
+@click.option("--baseline-min", type=int, default=14, show_default=True,
+              help="ok days the long baseline needs before it is defined.")
+@click.option("--min-days", type=int, default=3, show_default=True,
+              help="ok days a 7-day value and a weekly value need.")
+@click.option("--band-sd", type=float, default=0.5, show_default=True,
+              help="Half-width of the normal band in baseline SDs.")
+@click.option("--from", "first_date", help="First date of the table (YYYY-MM-DD).")
+@click.option("--to", "last_date", help="Last date of the table (YYYY-MM-DD).")
+@click.option("--jobs", type=int, default=None,
+              help="Worker processes (default: all cores).")
+@click.option("--progress/--no-progress", default=None,
+              help="Progress bar (default: on a terminal for runs of more than 20 files).")
+def command(folder, outdir, manifest, pattern, window, tz, wake, pick, clean_method,
+            baseline_days, baseline_min, min_days, band_sd, first_date, last_date, jobs,
+            progress) -> int:
+    """One row per athlete per day from a folder of recordings, with baselines and flags.
+
+    Finds the recordings under FOLDER (recursively), places each on a subject and a local
+    date (manifest, then file-name pattern, then time stamps in the file), picks each day's
+    morning recording, cleans it, measures the window and adds the 7-day ln-RMSSD (Plews et
+    al. 2012), its CV (Plews et al. 2013), the long baseline and band, flags and weekly
+    compliance (Plews et al. 2014). Writes daily.csv (+ daily.parquet), weekly.csv,
+    recordings.csv, errors.csv, store.h5 and provenance.json into the output folder.
+
+    rrkit is not a medical device and makes no diagnosis.
+    """
+    import sys
+
+    from ..batch import run_daily
+    from ..daily import BaselineSettings, DailySettings
+
+    wake_start, wake_end = _wake(wake)
+    if jobs is not None and jobs < 1:
+        raise InputError(f"--jobs must be at least 1; got {jobs}")
+    baselines = BaselineSettings(rolling_min_days=min_days, baseline_days=baseline_days,
+                                 baseline_min_days=baseline_min, band_sd=band_sd,
+                                 week_min_days=min(min_days, 7))
+    settings = DailySettings(window=window, tz=tz, wake_start=wake_start, wake_end=wake_end,
+                             pick=pick, clean=clean_method, baselines=baselines)
+    summary = run_daily(folder, outdir, manifest=manifest, pattern=pattern, settings=settings,
+                        jobs=jobs, progress=progress, first_date=first_date,
+                        last_date=last_date, command=["rrkit", "daily", *sys.argv[2:]])
+    table = summary.table
+    n_subjects = table["subject"].nunique() if len(table) else 0
+    click.echo(f"{len(table)} rows ({n_subjects} subjects) -> {outdir / 'daily.csv'}")
+    if summary.n_ignored:
+        click.echo(f"{summary.n_ignored} files left out (not recordings"
+                   f"{' or not in the manifest' if manifest else ''})")
+    if summary.n_failed:
+        click.echo(f"{summary.n_failed} files failed or could not be placed: see "
+                   f"{outdir / 'errors.csv'}")
+    if summary.last_date is not None:
+        if summary.below_band:
+            click.echo(f"7-day ln-RMSSD below the band on {summary.last_date}: "
+                       + ", ".join(summary.below_band))
+        else:
+            click.echo(f"7-day ln-RMSSD below the band on {summary.last_date}: nobody")
+        click.echo(CAUTION)
+    click.echo(summary.counts_line())
+    return summary.exit_code
