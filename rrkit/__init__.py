@@ -10,14 +10,18 @@ rrkit is not a medical device and makes no diagnosis.
 from ._version import __version__
 from .agreement import AgreementResult, agreement
 from .clean import CleanResult, CleanSummary
+from .daily import BaselineSettings, DailySettings, daily_table
+from .batch import run_daily
 from .errors import InputError, QualityWarning, RrkitWarning
 from .io import read, write_rr
 from .recording import ReadInfo, Recording
 
 __all__ = [
     "AgreementResult",
+    "BaselineSettings",
     "CleanResult",
     "CleanSummary",
+    "DailySettings",
     "InputError",
     "QualityWarning",
     "ReadInfo",
@@ -25,6 +29,8 @@ __all__ = [
     "RrkitWarning",
     "__version__",
     "agreement",
+    "daily_table",
     "read",
+    "run_daily",
     "write_rr",
 ]
