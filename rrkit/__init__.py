@@ -9,7 +9,7 @@ rrkit is not a medical device and makes no diagnosis.
 
 from ._version import __version__
 from .agreement import AgreementResult, agreement
-from .clean import CleanResult, CleanSummary
+from .clean import CleanResult, CleanSettings, CleanSummary, clean
 from .daily import BaselineSettings, DailySettings, daily_table
 from .batch import run_daily
 from .errors import InputError, QualityWarning, RrkitWarning
@@ -20,6 +20,7 @@ __all__ = [
     "AgreementResult",
     "BaselineSettings",
     "CleanResult",
+    "CleanSettings",
     "CleanSummary",
     "DailySettings",
     "InputError",
@@ -29,6 +30,7 @@ __all__ = [
     "RrkitWarning",
     "__version__",
     "agreement",
+    "clean",
     "daily_table",
     "read",
     "run_daily",

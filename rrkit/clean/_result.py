@@ -1,6 +1,7 @@
 """The result of cleaning: labels for every input interval, the corrected recording, the audit.
 
-This module only defines the containers; the methods that fill them live beside it.
+This module defines the containers and the audit arithmetic (`summarize`), which
+`CleanResult.window` reuses to give every analysis window its own verdict.
 """
 
 from __future__ import annotations
@@ -14,12 +15,19 @@ import numpy as np
 
 from ..recording import Recording
 
-__all__ = ["LABELS", "CleanSummary", "CleanResult"]
+__all__ = ["CAUTION_TEXT", "LABELS", "CleanResult", "CleanSummary", "summarize"]
 
 #: Beat classes, in the order tables list them. ``implausible`` is rrkit's own class for values
 #: outside the physiological range; the others are the published classes of Lipponen & Tarvainen
 #: (2019).
 LABELS = ("normal", "ectopic", "missed", "extra", "long", "short", "implausible")
+
+#: The caution attached to a summary when premature beats are frequent.
+CAUTION_TEXT = (
+    "{n} premature beats ({rate:.0f} per hour, above {limit:g} per hour). rrkit is not a "
+    "medical device and does not diagnose: frequent premature beats are a matter for a "
+    "clinician; please have such recordings reviewed by qualified staff."
+)
 
 
 @dataclass(frozen=True, slots=True)
@@ -99,6 +107,11 @@ class CleanResult:
         Counts, shares and the quality verdict.
     settings : Any
         The frozen settings object that produced this result (method, thresholds, strategy).
+    extra : Mapping
+        Anything else the run records (number of passes).
+    ectopic_beats : numpy.ndarray of int
+        Input beats judged premature (or misplaced); each ends one ``ectopic`` interval and
+        starts the next. ``summary.ectopic_per_hour`` counts these.
     """
 
     input: Recording
@@ -109,6 +122,53 @@ class CleanResult:
     summary: CleanSummary
     settings: Any = None
     extra: Mapping[str, Any] = field(default_factory=dict)
+    ectopic_beats: np.ndarray = field(default_factory=lambda: np.zeros(0, dtype=np.int64))
+
+    def __post_init__(self) -> None:
+        object.__setattr__(self, "extra", MappingProxyType(dict(self.extra)))
+        for name in ("labels", "origin", "changed", "ectopic_beats"):
+            arr = np.array(getattr(self, name), copy=True)
+            arr.flags.writeable = False
+            object.__setattr__(self, name, arr)
+
+    def window(self, start_s: float | None, end_s: float | None) -> CleanResult:
+        """The part of this result whose input beats lie in ``[start_s, end_s]`` (seconds).
+
+        Times are on the input recording's clock, as in `Recording.slice`. Labels and
+        ``changed`` are those of the input intervals in the window; the corrected recording holds
+        the corrected intervals that come from them (found through ``origin``, so it lines up
+        with the input even where a correction moved later beats); the summary is recomputed with
+        the same settings, so ``artifact_pct``, ``corrected_pct``, ``quality`` and the caution
+        are those of the window.
+
+        Parameters
+        ----------
+        start_s, end_s : float or None
+            Window edges in seconds (None = from the start / to the end).
+
+        Returns
+        -------
+        CleanResult
+        """
+        t = self.input.beat_times_s
+        lo = 0 if start_s is None else int(np.searchsorted(t, start_s - 1e-9, side="left"))
+        hi = t.size if end_s is None else int(np.searchsorted(t, end_s + 1e-9, side="right"))
+        if hi - lo < 2:
+            lo = hi = 0
+        inp = self.input.slice_beats(lo, hi)
+        i_lo, i_hi = lo, max(hi - 1, lo)  # input intervals [i_lo, i_hi)
+        c_lo = int(np.searchsorted(self.origin, i_lo, side="left"))
+        c_hi = int(np.searchsorted(self.origin, i_hi, side="left"))
+        rec = self.recording.slice_beats(c_lo, c_hi + 1) if c_hi > c_lo else \
+            self.recording.slice_beats(0, 0)
+        origin = self.origin[c_lo:c_hi] - i_lo
+        labels = self.labels[i_lo:i_hi]
+        changed = self.changed[i_lo:i_hi]
+        eb = self.ectopic_beats
+        eb = eb[(eb >= lo) & (eb < max(hi, lo))] - lo
+        summary = summarize(labels, changed, inp.gaps, inp.rr_ms, eb.size, self.settings)
+        return CleanResult(inp, labels, rec, origin, changed, summary, self.settings,
+                           dict(self.extra), eb)
 
     def to_frame(self):
         """One row per input interval: ``index, time_s, rr_ms, label, rr_corrected_ms``.
@@ -136,3 +196,62 @@ class CleanResult:
             "label": self.labels,
             "rr_corrected_ms": corrected,
         })
+
+
+def summarize(labels: np.ndarray, changed: np.ndarray, gaps: np.ndarray, rr_ms: np.ndarray,
+              n_ectopic_beats: int, settings: Any) -> CleanSummary:
+    """The audit of a set of labelled input intervals.
+
+    Parameters
+    ----------
+    labels : numpy.ndarray of str
+        One label per input interval.
+    changed : numpy.ndarray of bool
+        Which input intervals were changed or excluded.
+    gaps : numpy.ndarray of bool
+        Input gaps (not counted anywhere).
+    rr_ms : numpy.ndarray
+        Input intervals (ms), for the recording time behind ``ectopic_per_hour``.
+    n_ectopic_beats : int
+        Premature beats in these intervals.
+    settings : CleanSettings
+        Supplies ``max_corrected_pct``, ``caution_ectopic_per_hour`` and ``caution_min_ectopic``.
+
+    Notes
+    -----
+    ``artifact_pct = 100 * (non-normal intervals) / n`` and ``corrected_pct = 100 * (changed
+    intervals) / n``, with ``n`` the input intervals that are not gaps;
+    ``ectopic_per_hour = n_ectopic_beats / (sum of those intervals in hours)``. The window is
+    ``flagged`` when ``corrected_pct > max_corrected_pct`` or when it has no usable interval.
+    """
+    usable = ~np.asarray(gaps, bool)
+    lab = np.asarray(labels)[usable]
+    n = int(lab.size)
+    counts = {name: int(np.count_nonzero(lab == name)) for name in LABELS}
+    art = lab != "normal"
+    n_changed = int(np.count_nonzero(np.asarray(changed)[usable]))
+    artifact_pct = 100.0 * int(art.sum()) / n if n else float("nan")
+    corrected_pct = 100.0 * n_changed / n if n else float("nan")
+    # longest run of consecutive non-normal intervals (gaps break a run)
+    bad = (np.asarray(labels) != "normal") & usable
+    if bad.any():
+        edges = np.flatnonzero(np.diff(np.concatenate(([0], bad.astype(np.int8), [0]))))
+        longest = int((edges[1::2] - edges[::2]).max())
+    else:
+        longest = 0
+    hours = float(np.sum(np.asarray(rr_ms)[usable])) / 3.6e6
+    per_hour = n_ectopic_beats / hours if hours > 0 else 0.0
+    max_pct = getattr(settings, "max_corrected_pct", 5.0)
+    if n == 0:
+        quality, reason = "flagged", "no usable intervals"
+    elif corrected_pct > max_pct:
+        quality = "flagged"
+        reason = f"{corrected_pct:.1f}% of intervals corrected (more than {max_pct:g}%)"
+    else:
+        quality, reason = "ok", ""
+    caution = None
+    limit = getattr(settings, "caution_ectopic_per_hour", 30.0)
+    if per_hour > limit and n_ectopic_beats >= getattr(settings, "caution_min_ectopic", 1):
+        caution = CAUTION_TEXT.format(n=n_ectopic_beats, rate=per_hour, limit=limit)
+    return CleanSummary(n, counts, artifact_pct, corrected_pct, longest, per_hour, quality,
+                        reason, caution)

@@ -3,8 +3,9 @@
 Everything here is a simulation with a known ground truth; none of it describes real people.
 """
 
+from ._artifacts import ARTIFACT_CLASSES, ArtifactTruth, inject_artifacts
 from ._night import NightSettings, simulate_night, simulate_wearable_reports
 from ._series import RestingSeries, simulate_rr
 
-__all__ = ["NightSettings", "RestingSeries", "simulate_night", "simulate_rr",
-           "simulate_wearable_reports"]
+__all__ = ["ARTIFACT_CLASSES", "ArtifactTruth", "NightSettings", "RestingSeries",
+           "inject_artifacts", "simulate_night", "simulate_rr", "simulate_wearable_reports"]
