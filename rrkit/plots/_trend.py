@@ -210,8 +210,7 @@ def squad_overview(daily, path=None, *, phases=None, title: str | None = None, d
     z = np.ma.masked_invalid(grid.to_numpy(dtype=float))
     fig = new_figure(max(8.0, 0.09 * len(days) + 3.0), 1.0 + 0.42 * len(subjects) + 1.2)
     ax = fig.add_subplot(1, 1, 1)
-    cmap = mpl.colormaps[DIVERGING_CMAP].copy()
-    cmap.set_bad("#DDDDDD")
+    cmap = mpl.colormaps[DIVERGING_CMAP].with_extremes(bad="#DDDDDD")
     norm = mpl.colors.Normalize(vmin=-_LIMIT, vmax=_LIMIT)
     x = np.arange(len(days) + 1) - 0.5
     y = np.arange(len(subjects) + 1) - 0.5

@@ -52,6 +52,7 @@ from ..recording import Recording
 from . import _squad_files as files
 from . import _squad_story as story
 from ._series import RestingSeries, simulate_rr
+from ._squad_nights import TIME_ZONE
 
 __all__ = ["SquadSettings", "SquadFiles", "generate_squad", "main"]
 
@@ -167,14 +168,28 @@ def _scaled_series(rng: np.random.Generator, *, mean_rr_ms: float, ln_rmssd: flo
 
 
 def _add_artifacts(rr_ms: np.ndarray, counts: dict[str, int], seed: int) -> np.ndarray:
-    """Plant artifacts with the library's injector (missed, extra, ectopic, noise runs)."""
-    counts = {k: int(v) for k, v in counts.items() if v > 0}
-    if not counts:
-        return rr_ms
+    """Plant artifacts with the library's injector.
+
+    ``counts`` holds events per class of `rrkit.simulate.inject_artifacts` (missed, extra,
+    ectopic, long, short) plus ``noise``: runs of junk from a sliding strap, each made by
+    planting extra, missed, long and short events tightly packed into a 25-interval stretch.
+    """
     from . import inject_artifacts
 
-    rec, _truth = inject_artifacts(Recording.from_rr(rr_ms), counts=counts, seed=seed)
-    return np.asarray(rec.rr_ms)
+    rng = np.random.default_rng(seed)
+    rr = np.asarray(rr_ms, dtype=float)
+    for _ in range(int(counts.get("noise", 0))):
+        k = int(rng.integers(10, max(11, rr.size - 40)))
+        seg = Recording.from_rr(rr[k:k + 25])
+        bad, _truth = inject_artifacts(seg, counts={"extra": 3, "missed": 1, "long": 1,
+                                                    "short": 2},
+                                       seed=rng, min_spacing=0)
+        rr = np.concatenate([rr[:k], bad.rr_ms, rr[k + 25:]])
+    single = {k: int(v) for k, v in counts.items() if k != "noise" and v > 0}
+    if single:
+        rec, _truth = inject_artifacts(Recording.from_rr(rr), counts=single, seed=rng)
+        rr = np.asarray(rec.rr_ms)
+    return rr
 
 
 def _morning_counts(ath: story.Athlete, rng: np.random.Generator, heavy: bool) -> dict[str, int]:
@@ -229,6 +244,9 @@ def _unusable_bytes(kind: str, rr: np.ndarray, start: datetime, file_format: str
         k = len(lines) // 2
         lines[k] = lines[k].replace("0", "O", 1) if "0" in lines[k] else "??\n"
         return "".join(lines).encode("ascii")
+    if kind == "truncated_gz":
+        data = files.render(rr, start, file_format)
+        return data[: len(data) // 2]
     raise KeyError(kind)
 
 
@@ -262,7 +280,7 @@ def _lab(settings: SquadSettings, a: int) -> tuple[bytes, bytes]:
     rng = _rng(settings, a, day, _P_LAB)
     start = datetime.combine(settings.first_monday + timedelta(days=day), time(9, 30))
     parts = []
-    events = ["label,start_s,end_s\n"]
+    events = ["label,start_s,end_s,breaths_per_min\n"]
     t0 = 0.0
     for label, dur, d_rr, d_ln, resp_hz, _ in _LAB_PROTOCOL:
         rr = _scaled_series(rng, mean_rr_ms=ath.rr_ms * 0.95 + d_rr, ln_rmssd=ath.ln_rmssd + d_ln,
@@ -270,7 +288,8 @@ def _lab(settings: SquadSettings, a: int) -> tuple[bytes, bytes]:
         parts.append(rr)
         seg = float(np.sum(rr)) / 1000.0
         if label not in ("settle", "stand_up", "sit_down"):
-            events.append(f"{label},{t0:.3f},{t0 + seg:.3f}\n")
+            paced = f"{resp_hz * 60:g}" if label.startswith("paced") else ""
+            events.append(f"{label},{t0:.3f},{t0 + seg:.3f},{paced}\n")
         t0 += seg
     rr = np.concatenate(parts)
     rr = _add_artifacts(rr, {"missed": 2, "ectopic": 1}, seed=int(rng.integers(2**31)))
@@ -381,6 +400,7 @@ def _describe(s: SquadSettings) -> bytes:
     doc = {
         "description": "Simulation of an invented club rowing squad; not real people.",
         "regenerate": "python -m rrkit.simulate.squad data_samples",
+        "time_zone": TIME_ZONE,
         "first_day": day(0),
         "last_day": day(s.n_days - 1),
         "athletes": [{"subject": a.subject, "file_format": a.file_format,

@@ -1,0 +1,111 @@
+"""Figures: they are drawn, written as valid non-blank PNGs, and reject tables they cannot use."""
+
+from __future__ import annotations
+
+import numpy as np
+import pandas as pd
+import pytest
+
+import rrkit
+from rrkit.plots import athlete_trend, band_position, recording_diagnostic, squad_overview
+
+PNG_MAGIC = b"\x89PNG\r\n\x1a\n"
+
+
+def assert_png(path, *, min_px=(300, 300)) -> None:
+    """A readable PNG of a useful size that is not one flat colour."""
+    import matplotlib.image as mpimg
+
+    assert path.read_bytes()[:8] == PNG_MAGIC
+    img = mpimg.imread(path)
+    assert img.shape[0] >= min_px[0] and img.shape[1] >= min_px[1]
+    grey = img[..., :3].mean(axis=2)
+    assert grey.std() > 0.02, "the figure is (nearly) blank"
+    # some ink: a reasonable share of pixels darker than the white background
+    assert (grey < 0.9).mean() > 0.01
+
+
+def _daily(n_days=70, subjects=("A1", "B2", "C3"), seed=3):
+    """A daily table in the shape `rrkit.daily_table` returns, built here from a known truth.
+
+    Band = mean ± 0.5 SD of the first 28 ok days (the convention the daily table uses); the
+    last two weeks of B2 are lowered by 0.4 ln units so their 7-day mean falls below it.
+    """
+    rng = np.random.default_rng(seed)
+    rows = []
+    days = pd.date_range("2026-01-05", periods=n_days, freq="D")
+    for s in subjects:
+        ln = 4.2 + rng.normal(0, 0.08, n_days)
+        if s == "B2":
+            ln[-14:] -= 0.4
+        quality = np.array(["ok"] * n_days, dtype=object)
+        quality[5] = "flagged"
+        quality[9] = "missing"
+        quality[20] = "rejected"
+        ln = np.where(np.isin(quality, ["missing", "rejected"]), np.nan, ln)
+        df = pd.DataFrame({"subject": s, "date": days.date, "quality": quality, "ln_rmssd": ln})
+        okv = df["ln_rmssd"].where(df["quality"] == "ok")
+        df["ln_rmssd_7d"] = okv.rolling(7, min_periods=3).mean()
+        base = okv.iloc[:28]
+        df["ln_rmssd_band_low"] = base.mean() - 0.5 * base.std()
+        df["ln_rmssd_band_high"] = base.mean() + 0.5 * base.std()
+        df["below_band"] = pd.array(df["ln_rmssd_7d"] < df["ln_rmssd_band_low"], dtype="boolean")
+        rows.append(df)
+    return pd.concat(rows, ignore_index=True)
+
+
+def test_band_position_edges():
+    # hand-computable: band 4.0-4.2 has its middle at 4.1 and half-width 0.1
+    df = pd.DataFrame({"ln_rmssd_7d": [4.0, 4.1, 4.2, 3.9, np.nan],
+                       "ln_rmssd_band_low": 4.0, "ln_rmssd_band_high": 4.2})
+    np.testing.assert_allclose(band_position(df).to_numpy(), [-1, 0, 1, -2, np.nan], atol=1e-12)
+
+
+def test_athlete_trend_png(tmp_path):
+    daily = _daily()
+    load = pd.DataFrame({"date": pd.to_datetime(daily["date"]).astype(str),
+                         "subject": daily["subject"], "load_au": 400.0})
+    out = tmp_path / "trend.png"
+    fig = athlete_trend(daily, "B2", out, load=load,
+                        phases=[("base", "2026-01-05", "2026-02-01"),
+                                ("block", "2026-02-02", "2026-03-15")])
+    assert_png(out)
+    labels = fig.axes[0].get_legend_handles_labels()[1]
+    assert "7-day mean below band" in labels  # B2's lowered fortnight is marked
+    assert "rejected / failed file" in labels and "no recording" in labels
+
+
+def test_squad_overview_png(tmp_path):
+    out = tmp_path / "overview.png"
+    fig = squad_overview(_daily(), out)
+    assert_png(out)
+    mesh = fig.axes[0].collections[0]
+    arr = np.ma.getdata(mesh.get_array()).reshape(3, -1)
+    # the lowered athlete's last week sits well below the band's lower edge (-1)
+    assert np.nanmean(arr[1, -7:]) < -1.5
+    assert abs(np.nanmean(arr[0, 28:])) < 1.5
+
+
+def test_trend_unknown_subject_and_bad_table(tmp_path):
+    with pytest.raises(rrkit.InputError, match="subject 'Z9' is not in the daily table"):
+        athlete_trend(_daily(), "Z9")
+    with pytest.raises(rrkit.InputError, match=r"lacks the column\(s\) \['ln_rmssd_7d'\]"):
+        squad_overview(_daily().drop(columns=["ln_rmssd_7d"]))
+
+
+def test_recording_diagnostic_png(tmp_path):
+    pytest.importorskip("rrkit.metrics")
+    from rrkit.simulate import inject_artifacts, simulate_rr
+
+    rec = simulate_rr(duration_s=360, seed=5)
+    bad, _truth = inject_artifacts(rec, counts={"missed": 2, "ectopic": 2}, seed=1)
+    result = rrkit.clean(bad)
+    out = tmp_path / "diag.png"
+    fig = recording_diagnostic(result, out, window_s=(60.0, 360.0))
+    assert_png(out, min_px=(600, 900))
+    labels = fig.axes[0].get_legend_handles_labels()[1]
+    assert any(lab.startswith("missed beat") for lab in labels)
+    assert any(lab.startswith("ectopic") for lab in labels)
+    texts = " ".join(t.get_text() for t in fig.axes[1].texts)
+    assert "LF" in texts and "HF" in texts and "ms²" in texts
+    assert "SD1" in " ".join(t.get_text() for t in fig.axes[2].texts)
