@@ -109,3 +109,25 @@ def test_recording_diagnostic_png(tmp_path):
     texts = " ".join(t.get_text() for t in fig.axes[1].texts)
     assert "LF" in texts and "HF" in texts and "ms²" in texts
     assert "SD1" in " ".join(t.get_text() for t in fig.axes[2].texts)
+
+
+def test_plot_command_diagnostic_and_trend(tmp_path):
+    pytest.importorskip("rrkit.metrics")
+    from rrkit.cli import main
+    from rrkit.io import write_rr
+    from rrkit.simulate import simulate_rr
+
+    rr_file = tmp_path / "morning.txt"
+    write_rr(rr_file, simulate_rr(duration_s=365, seed=2))
+    out = tmp_path / "diag.png"
+    assert main(["plot", str(rr_file), "--window", "start:60+300", "-o", str(out)]) == 0
+    assert_png(out, min_px=(600, 900))
+    daily_csv = tmp_path / "daily.csv"
+    _daily().to_csv(daily_csv, index=False)
+    assert main(["plot", str(daily_csv), "--kind", "trend", "--subject", "C3",
+                 "-o", str(tmp_path / "t.png")]) == 0
+    assert_png(tmp_path / "t.png")
+    assert main(["plot", str(daily_csv), "--kind", "overview"]) == 0
+    assert_png(tmp_path / "daily_overview.png")
+    # several subjects and no --subject: a one-line error naming the choices
+    assert main(["plot", str(daily_csv), "--kind", "trend"]) == 2

@@ -88,7 +88,7 @@ def _tachogram(ax, result, window_s) -> None:
         idx = np.flatnonzero(labels == name)
         if idx.size:
             ax.scatter(t[idx], raw.rr_ms[idx], s=42, color=colour, marker=marker,
-                       edgecolor="white", linewidth=0.5, zorder=3, label=f"{text} ({idx.size})")
+                       edgecolor="white", linewidth=0.5, zorder=3, label=f"{text} ({idx.size} intervals)")
     if window_s is not None:
         ax.axvspan(window_s[0], window_s[1], color=OKABE_ITO["sky"], alpha=0.12, lw=0,
                    label="analysis window")
@@ -163,7 +163,8 @@ def _poincare(ax, rec, values) -> None:
         ax.plot([c, c + sd2 * u[0]], [c, c + sd2 * u[1]], color=OKABE_ITO["vermillion"],
                 lw=1.5)
         ax.plot([c, c + sd1 * v[0]], [c, c + sd1 * v[1]], color=OKABE_ITO["green"], lw=1.5)
-        ax.text(0.03, 0.97, f"SD1 {sd1:.1f} ms\nSD2 {sd2:.1f} ms\nsemi-axes of the ellipse",
+        ax.text(0.03, 0.97,
+                f"SD1 {sd1:.1f} ms (green)\nSD2 {sd2:.1f} ms (red)\nsemi-axes of the ellipse",
                 transform=ax.transAxes, va="top", fontsize=9,
                 bbox={"facecolor": "white", "alpha": 0.85, "lw": 0})
     if x.size:

@@ -1,0 +1,130 @@
+"""`rrkit demo` end to end: on a reduced squad (every output), and on the committed full squad
+(the scenario's effects are found)."""
+
+from __future__ import annotations
+
+from pathlib import Path
+
+import numpy as np
+import pandas as pd
+import pytest
+
+from rrkit import InputError
+from rrkit.cli import main
+from rrkit.simulate import squad
+from rrkit.simulate._squad_nights import WEARABLE
+
+from .test_plots import assert_png
+
+REPO = Path(__file__).resolve().parents[1]
+SAMPLES = REPO / "data_samples"
+
+
+@pytest.fixture(scope="module")
+def small_run(tmp_path_factory):
+    """3 athletes x 3 weeks, made by the same generator, run through `rrkit demo`."""
+    root = tmp_path_factory.mktemp("demo_small")
+    data = root / "data"
+    squad.generate_squad(data, settings=squad.SquadSettings(n_athletes=3, n_weeks=3))
+    out = root / "out"
+    rc = main(["demo", str(out), "--data", str(data), "--jobs", "1", "--quiet"])
+    return rc, data, out
+
+
+def test_small_demo_writes_every_output(small_run):
+    rc, _data, out = small_run
+    assert rc == 0
+    daily = pd.read_csv(out / "daily" / "daily.csv")
+    assert sorted(daily["subject"].unique()) == ["R01", "R02", "R03"]
+    assert len(daily) == 3 * 21  # every subject gets every date, missing days included
+    assert {"ln_rmssd_7d", "ln_rmssd_band_low", "below_band"} <= set(daily.columns)
+    assert (out / "daily" / "store.h5").stat().st_size > 10_000
+    assert (out / "daily" / "errors.csv").is_file()
+    assert (out / "lab" / "lab_segments.csv").is_file()
+    assert (out / "agreement" / "definition_search.csv").is_file()
+    figs = sorted((out / "figures").glob("*.png"))
+    names = {p.name for p in figs}
+    assert {"squad_overview.png", "trend_R01.png", "trend_R02.png", "trend_R03.png",
+            "bland_altman_nights.png"} <= names
+    assert any(n.startswith("diagnostic_") for n in names)
+    for p in figs:
+        assert_png(p)
+    text = (out / "summary.txt").read_text()
+    assert "simulation, not real people" in text and "not a medical device" in text
+
+
+def test_small_demo_lists_the_failed_file(small_run):
+    _rc, data, out = small_run
+    errors = pd.read_csv(out / "daily" / "errors.csv")
+    # R02's day-9 morning is an error page saved instead of data (the squad's story)
+    assert errors["path"].str.startswith("R02/R02_20260114").any()
+    text = (out / "summary.txt").read_text()
+    assert "no numbers found" in text
+
+
+def test_demo_data_folder_must_be_a_squad(tmp_path):
+    from rrkit.cli._demo import find_data
+
+    with pytest.raises(InputError, match="is not a demo data folder"):
+        find_data(tmp_path)
+    assert main(["demo", str(tmp_path / "o"), "--data", str(tmp_path)]) == 2
+
+
+# ------------------------------------------------------------------ full committed squad
+@pytest.fixture(scope="module")
+def full_run(tmp_path_factory):
+    if not (SAMPLES / "squad.json").is_file():
+        pytest.skip(f"committed demo data not found: {SAMPLES}")
+    out = tmp_path_factory.mktemp("demo_full") / "out"
+    rc = main(["demo", str(out), "--data", str(SAMPLES), "--quiet"])
+    return rc, out
+
+
+def test_altitude_camp_puts_most_athletes_below_band(full_run):
+    rc, out = full_run
+    assert rc == 0
+    daily = pd.read_csv(out / "daily" / "daily.csv", parse_dates=["date"])
+    # second week of the camp (weeks 6-7 are 9-22 February 2026 in the squad's calendar)
+    camp = daily[(daily["date"] >= "2026-02-16") & (daily["date"] <= "2026-02-22")]
+    share = camp.groupby("subject")["below_band"].mean()
+    assert (share > 0.5).sum() >= 6, share
+    # the baseline weeks are mostly inside the band
+    base = daily[(daily["date"] >= "2026-01-19") & (daily["date"] <= "2026-02-01")]
+    assert base["below_band"].mean() < 0.2
+
+
+def test_frequent_ectopy_athlete_gets_the_caution(full_run):
+    _rc, out = full_run
+    text = (out / "summary.txt").read_text()
+    cautions = [ln for ln in text.splitlines() if ln.startswith("CAUTION")]
+    assert len(cautions) == 1 and cautions[0].startswith("CAUTION R05")
+    assert "belong with a clinician" in text
+
+
+def test_failing_files_listed_with_reasons(full_run):
+    _rc, out = full_run
+    errors = pd.read_csv(out / "daily" / "errors.csv")
+    got = dict(zip(errors["path"].str.split("/").str[0], errors["message"], strict=True))
+    assert set(got) == {"R01", "R02", "R06", "R07"}
+    assert "expected a number" in got["R01"]        # a corrupted value, with its line
+    assert "line 162" in got["R01"] or "line" in got["R01"]
+    assert "no numbers found" in got["R02"]          # an error page instead of data
+    assert "damaged gzip" in got["R06"]              # an upload cut off half way
+    assert "empty" in got["R07"]
+    text = (out / "summary.txt").read_text()
+    for subject in got:
+        assert f"{subject}/{subject}_" in text
+    # the 40-s recording is read but rejected, with the reason
+    daily = pd.read_csv(out / "daily" / "daily.csv")
+    rej = daily[daily["quality"] == "rejected"]
+    assert (rej["subject"] == "R03").any()
+    assert rej["quality_reason"].str.contains("covers").any()
+
+
+def test_agreement_search_finds_the_hidden_definition(full_run):
+    _rc, out = full_run
+    table = pd.read_csv(out / "agreement" / "definition_search.csv")
+    assert str(table.iloc[0]["definition"]) == WEARABLE["definition"]
+    text = (out / "summary.txt").read_text()
+    assert f"closest definition {WEARABLE['definition']!r}" in text
+    assert np.isfinite(table.iloc[0].filter(like="bias").astype(float)).all()
