@@ -662,7 +662,7 @@ def add_baselines(table, *, settings: BaselineSettings | None = None):
     ok = (out["quality"].astype(str) == "ok").to_numpy()
     ln = np.where(ok, pd.to_numeric(out["ln_rmssd"]).to_numpy(dtype=float), np.nan)
     hr = np.where(ok, pd.to_numeric(out["mean_hr_bpm"]).to_numpy(dtype=float), np.nan)
-    week = (dates - pd.to_timedelta(dates.dt.weekday, unit="D")).dt.date.to_numpy()
+    week = (dates - pd.to_timedelta(dates.dt.day_of_week, unit="D")).dt.date.to_numpy()
     positions = np.arange(n)
     for _, idx in pd.Series(positions).groupby(out["subject"].astype(str).to_numpy()):
         pos = idx.to_numpy()
