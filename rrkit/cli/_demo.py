@@ -146,28 +146,33 @@ def _lab(folder: Path, out: Path):
 
 
 def _nights(folder: Path, out: Path, *, tz: str):
+    """Recompute the nights under every reference definition and rank them against the
+    wearable's reported values; writes the ranking and the best combination's statistics."""
     import pandas as pd
 
-    from .. import agreement as agreement_module
+    from .._agreement_search import search_definitions
     from ..batch import read_manifest
     from ..io import read
 
     nights_dir = folder / "nights"
+    if not (nights_dir / "wearable_reports.csv").is_file():
+        return None
     reported = pd.read_csv(nights_dir / "wearable_reports.csv")
     entries, problems = read_manifest(nights_dir / "manifest.csv")
+    if problems:
+        raise InputError(f"{nights_dir / 'manifest.csv'}: {problems[0][2]}")
     nights = []
     for path, (_line, row) in sorted(entries.items()):
         rec = read(path, subject=row["subject"])
-        start = row["start"]
-        nights.append(rec.replace(start=start, subject=row["subject"]))
-    from .._agreement_search import search_definitions
-
-    search = search_definitions(reported, nights, metric="rmssd_ms")
-    (out / "agreement").mkdir(parents=True, exist_ok=True)
-    search.table.to_csv(out / "agreement" / "definition_search.csv", index=False)
-    best = search.best
-    (out / "agreement" / "agreement.txt").write_text(best.summary_text(), encoding="utf-8")
-    del agreement_module, problems
+        nights.append(rec.replace(start=row["start"], subject=row["subject"]))
+    search = search_definitions(reported, nights, metric="rmssd_ms", progress=False)
+    agree_dir = out / "agreement"
+    agree_dir.mkdir(parents=True, exist_ok=True)
+    search.table.to_csv(agree_dir / "definition_search.csv", index=False)
+    best = search.results[search.best]
+    best.table.to_csv(agree_dir / "agreement_best.csv", index=False)
+    (agree_dir / "agreement.txt").write_text(search.summary_text() + "\n" + best.summary_text(),
+                                             encoding="utf-8")
     return search
 
 
@@ -237,7 +242,7 @@ def _figures(folder, out, run, *, load, meta, ectopy, agree, note):
         written.append(path)
     if agree is not None:
         path = fig_dir / "bland_altman_nights.png"
-        agree.best.plot(path)
+        agree.results[agree.best].plot(path)
         written.append(path)
     note(f"{len(written)} figures in {fig_dir}")
     return written
@@ -339,12 +344,19 @@ def _summary(run, *, lab, agree, ectopy, figures, out, meta, folder) -> str:
     # agreement
     if agree is not None:
         lines.append("")
-        best = agree.best
-        st = best.stats
-        lines.append(f"Wearable vs raw nights: closest definition {agree.best_name!r}; "
-                     f"bias {st['bias']:+.1f} ms (95% CI {st['bias_ci_low']:+.1f} to "
-                     f"{st['bias_ci_high']:+.1f}), limits {st['loa_low']:+.1f} to "
-                     f"{st['loa_high']:+.1f} ms, n = {st['n']}")
+        name, cleaning = agree.best
+        st = agree.results[agree.best].stats
+        lines.append(f"Wearable vs raw nights ({int(st['n'])} nights): closest definition "
+                     f"{name!r} (cleaning {cleaning!r})")
+        lines.append(f"  bias {st['bias']:+.1f} ms (95% CI {st['bias_ci_low']:+.1f} to "
+                     f"{st['bias_ci_high']:+.1f}), limits of agreement {st['loa_low']:+.1f} to "
+                     f"{st['loa_high']:+.1f} ms")
+        ru = agree.runner_up
+        if ru is not None:
+            row = agree.table[(agree.table["definition"] == ru[0])
+                              & (agree.table["cleaning"] == ru[1])].iloc[0]
+            lines.append(f"  next: {ru[0]!r}, SD of differences {row['sd_ratio_to_best']:.1f} "
+                         "times larger")
     lines.append("")
     lines.append(f"Outputs in {out}:")
     for k in ("daily_csv", "store", "errors_csv", "provenance"):
