@@ -8,7 +8,14 @@ rrkit is not a medical device and makes no diagnosis.
 """
 
 from ._version import __version__
-from .agreement import AgreementResult, agreement
+from .agreement import (
+    AgreementResult,
+    DefinitionSearch,
+    ReferenceDefinition,
+    agreement,
+    reference_table,
+    search_definitions,
+)
 from .clean import CleanResult, CleanSettings, CleanSummary, clean
 from .daily import BaselineSettings, DailySettings, daily_table
 from .batch import run_daily
@@ -18,6 +25,8 @@ from .recording import ReadInfo, Recording
 
 __all__ = [
     "AgreementResult",
+    "DefinitionSearch",
+    "ReferenceDefinition",
     "BaselineSettings",
     "CleanResult",
     "CleanSettings",
@@ -30,6 +39,8 @@ __all__ = [
     "RrkitWarning",
     "__version__",
     "agreement",
+    "reference_table",
+    "search_definitions",
     "clean",
     "daily_table",
     "read",

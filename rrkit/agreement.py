@@ -8,8 +8,10 @@ as a dict, a table and a readable summary, with a Bland-Altman figure.
 
 Differences are always ``reported - reference``: a positive bias means the device reads high.
 
-The window-definition search (which reference definition the reported values resemble most)
-lives in :mod:`rrkit._agreement_search` and is exported as `rrkit.search_definitions`.
+The reference side can be built from raw nights (`reference_table`: a definition of which part
+of the night counts, and a cleaning setting), and `search_definitions` ranks a grid of
+definitions x cleanings by how closely the reported values follow each (implemented in
+:mod:`rrkit._agreement_search`, re-exported here).
 """
 
 from __future__ import annotations
@@ -24,10 +26,30 @@ from typing import Any
 import numpy as np
 
 from . import _agreement_stats as _stats
+from ._agreement_search import (
+    CLEANINGS,
+    REFERENCE_DEFINITIONS,
+    DefinitionSearch,
+    ReferenceDefinition,
+    night_date,
+    reference_table,
+    search_definitions,
+)
 from ._validation import check_option, check_range
 from .errors import InputError
 
-__all__ = ["AgreementResult", "agreement", "unit_of"]
+__all__ = [
+    "CLEANINGS",
+    "REFERENCE_DEFINITIONS",
+    "AgreementResult",
+    "DefinitionSearch",
+    "ReferenceDefinition",
+    "agreement",
+    "night_date",
+    "reference_table",
+    "search_definitions",
+    "unit_of",
+]
 
 log = logging.getLogger("rrkit")
 

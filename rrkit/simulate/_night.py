@@ -214,7 +214,8 @@ def simulate_wearable_reports(
     nights : sequence of Recording
         Whole nights with ``start`` (time-zone aware) and ``subject`` set.
     definition : str or ReferenceDefinition
-        The hidden definition (a name from `rrkit.agreement_definitions()` or an object).
+        The hidden definition: a name of `rrkit.agreement.REFERENCE_DEFINITIONS` or a
+        `rrkit.ReferenceDefinition`.
     bias : float
         Additive bias in the metric's unit (default 0).
     noise_sd : float
@@ -223,16 +224,17 @@ def simulate_wearable_reports(
         Proportional error (default 1: none).
     metric : str
         Metric key of `rrkit.metrics` (default ``"rmssd_ms"``).
-    clean : str, CleanSettings or None
-        Cleaning the wearable applies before computing (default ``"drr"``).
+    clean : str, CleanSettings, mapping or None
+        Cleaning the wearable applies before computing (default ``"drr"``; see
+        `rrkit.reference_table`).
     seed : int or numpy.random.Generator
         Seed of the noise.
 
     Returns
     -------
     pandas.DataFrame
-        ``subject``, ``date`` (the night's date: the local date of waking, see
-        `rrkit.night_date`) and the metric column, one row per night.
+        ``subject``, ``date`` (the night's date: the local date of its last beat, see
+        `rrkit.agreement.night_date`) and the metric column, one row per night.
     """
     from .._agreement_search import reference_table
 
