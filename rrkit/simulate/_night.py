@@ -144,8 +144,9 @@ def simulate_night(
     -----
     The fluctuation series ``f`` of `simulate_rr` (mean removed) is laid over the course:
     ``rr(t) = m(t) + g(t) f``, with ``m`` the mean RR and ``g`` the variability factor
-    (proportional to ``(m / m_sleep)^2``, lower in awakenings); ``t`` comes from the cumulative
-    sum of ``rr`` itself (two passes). An 8-hour night (about 30,000 beats) takes well under a
+    (proportional to ``(m / m_sleep)^2``, lower in awakenings). Beat ``k`` of the mean course
+    falls where the integral of ``1 / m(t)`` reaches ``k``; the course is then evaluated again
+    at the cumulative sum of the intervals themselves. An 8-hour night (about 30,000 beats) takes well under a
     second.
 
     Examples
@@ -169,15 +170,18 @@ def simulate_night(
     duration_s = dur_h * 3600.0
     course = _Course(s, duration_s, rng)
     fluct = dataclasses.replace(series or RestingSeries(), mean_rr_ms=course.sleep)
-    shortest = min(course.onset, course.morning,
-                   60000.0 / (60000.0 / course.onset + s.awakening_hr_bpm))
-    n = int(duration_s * 1000.0 / shortest * 1.05) + 50
+    # beat times of the mean course: beat k falls where the integral of 1/m(t) reaches k
+    step = 0.5
+    grid = np.arange(0.0, duration_s * 1.2 + 120.0, step)
+    m_grid, _ = course.at(grid)
+    phase = np.concatenate(([0.0], np.cumsum(step * 1000.0 / m_grid[:-1])))
+    n = int(phase[-1])
     f = simulate_rr(n, settings=fluct, seed=rng, as_recording=False) - fluct.mean_rr_ms
-    rr = np.full(n, course.sleep)
-    for _ in range(2):
-        t = np.concatenate(([0.0], np.cumsum(rr[:-1]))) / 1000.0
+    t = np.interp(np.arange(n, dtype=float), phase, grid)
+    for _ in range(2):  # then evaluate the course at the beats' own times
         m, g = course.at(t)
         rr = m + g * f
+        t = np.concatenate(([0.0], np.cumsum(rr[:-1]))) / 1000.0
     rr = np.maximum(rr, 300.0)
     t_end = np.cumsum(rr) / 1000.0
     k = int(np.searchsorted(t_end, duration_s, side="right"))
