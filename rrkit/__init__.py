@@ -21,29 +21,43 @@ from .daily import BaselineSettings, DailySettings, daily_table
 from .batch import run_daily
 from .errors import InputError, QualityWarning, RrkitWarning
 from .io import read, write_rr
+from . import windows
+from .metrics import Bands, MetricsResult, MetricsSettings, Spectrum, metrics, spectrum
 from .recording import ReadInfo, Recording
+from .windows import MORNING, Window, parse_window, resolve_windows
 
 __all__ = [
     "AgreementResult",
     "DefinitionSearch",
     "ReferenceDefinition",
+    "Bands",
     "BaselineSettings",
     "CleanResult",
     "CleanSettings",
     "CleanSummary",
     "DailySettings",
     "InputError",
+    "MORNING",
+    "MetricsResult",
+    "MetricsSettings",
     "QualityWarning",
     "ReadInfo",
     "Recording",
     "RrkitWarning",
+    "Spectrum",
+    "Window",
     "__version__",
     "agreement",
     "reference_table",
     "search_definitions",
     "clean",
     "daily_table",
+    "metrics",
+    "parse_window",
     "read",
+    "resolve_windows",
     "run_daily",
+    "spectrum",
+    "windows",
     "write_rr",
 ]
