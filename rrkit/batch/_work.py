@@ -125,7 +125,7 @@ class ResultCache:
         if not p.is_file():
             return None
         try:
-            with np.load(p, allow_pickle=False) as z:
+            with open(p, "rb") as fh, np.load(fh, allow_pickle=False) as z:
                 meta = json.loads(bytes(z["__meta__"]).decode("utf-8"))
                 if meta.get("format") != _CACHE_FORMAT or meta.get("settings") != self.digest \
                         or meta.get("sha256") != sha:

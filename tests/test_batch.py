@@ -1,0 +1,340 @@
+"""Batch runtime: patterns, discovery, placement in a time zone, fault tolerance, resume."""
+
+from __future__ import annotations
+
+import datetime as dt
+import gzip
+import os
+import signal
+import subprocess
+import sys
+import time
+from pathlib import Path
+
+import numpy as np
+import pandas as pd
+import pytest
+
+import rrkit
+from rrkit.batch import (
+    FilenamePattern,
+    InlineExecutor,
+    LocalExecutor,
+    discover,
+    read_manifest,
+    run_daily,
+)
+from rrkit.batch._atomic import TMP_SUFFIX, atomic_write_text
+from rrkit.cli import main
+from rrkit.daily import BaselineSettings, DailySettings
+from rrkit.simulate import simulate_rr
+
+D0 = dt.date(2026, 3, 2)
+
+
+def _write(path: Path, seed: int, *, duration_s: float = 370.0, mean_rr_ms: float = 950.0):
+    path.parent.mkdir(parents=True, exist_ok=True)
+    rr = simulate_rr(duration_s=duration_s, seed=seed, mean_rr_ms=mean_rr_ms, as_recording=False)
+    rrkit.write_rr(path, rr)
+    return path
+
+
+def _squad_folder(root: Path, *, subjects=("A01", "B02"), n_days: int = 10, skip=()):
+    files = []
+    for si, subj in enumerate(subjects):
+        for d in range(n_days):
+            if (subj, d) in skip:
+                continue
+            day = D0 + dt.timedelta(days=d)
+            files.append(_write(root / subj / f"{subj}_{day:%Y-%m-%d}_0710.txt",
+                                seed=1000 * si + d, mean_rr_ms=900 + 60 * si))
+    return files
+
+
+# ----------------------------------------------------------------------------- patterns
+@pytest.mark.parametrize(("pattern", "path", "expected"), [
+    ("{subject}_{date}[_{time}]*", "x/A01_2026-03-01_0712.txt",
+     {"subject": "A01", "date": dt.date(2026, 3, 1), "time": dt.time(7, 12)}),
+    ("{subject}_{date}[_{time}]*", "A_01_20260301.csv",
+     {"subject": "A_01", "date": dt.date(2026, 3, 1)}),
+    ("{subject}/{date:%d.%m.%Y}_{position}.txt", "A01/01.03.2026_supine.txt",
+     {"subject": "A01", "date": dt.date(2026, 3, 1), "position": "supine"}),
+    ("**/{subject}/{datetime}.rr", "a/b/A01/20260301T071230.rr",
+     {"subject": "A01", "date": dt.date(2026, 3, 1), "time": dt.time(7, 12, 30)}),
+    ("{subject}/{date:%d.%m.%Y}_{position}.txt", "z/A01/01.03.2026_supine.txt", None),
+    ("{subject}_{date}*", "notes.txt", None),
+])
+def test_pattern_match(pattern, path, expected):
+    assert FilenamePattern(pattern).match(path) == expected
+
+
+@pytest.mark.parametrize(("pattern", "message"), [
+    ("{subject", "never closed"),
+    ("{subject}_{date:%Q}", "unknown format code '%Q'"),
+    ("{datetime}_{date}", "appears twice"),
+    ("{subject:%Y}", "a format is allowed only for date"),
+    ("{sub-ject}", "bad field name"),
+    ("{subject}[_{date}", "never closed with"),
+])
+def test_pattern_errors(pattern, message):
+    with pytest.raises(rrkit.InputError, match=message):
+        FilenamePattern(pattern)
+
+
+def test_pattern_impossible_date():
+    with pytest.raises(rrkit.InputError, match="not a valid date"):
+        FilenamePattern("{subject}_{date}*").match("A01_2026-02-30.txt")
+
+
+# ----------------------------------------------------------------------------- discovery
+def test_discover_manifest_precedence(tmp_path):
+    data = tmp_path / "data"
+    _write(data / "A01_2026-03-02_0700.txt", 1)
+    _write(data / "other.txt", 2)
+    (data / "README.md").write_text("not a recording")
+    man = tmp_path / "manifest.csv"
+    man.write_text("path,subject,start,position\n"
+                   "A01_2026-03-02_0700.txt,Z09,2026-03-05T06:30:00,seated\n"
+                   "missing.txt,Z09,2026-03-06T06:30:00,supine\n"
+                   "other.txt,,2026-03-06T06:30:00,supine\n"
+                   "other.txt,Z09,yesterday,supine\n")
+    found = discover(data, manifest=man)
+    (cand,) = found.candidates  # only the manifest's files; other.txt rows both bad
+    assert (cand.subject, cand.start, cand.extra) == ("Z09", dt.datetime(2026, 3, 5, 6, 30),
+                                                      {"position": "seated"})
+    kinds = sorted((p[1], p[2].split(": ", 1)[-1][:30]) for p in found.problems)
+    assert [k for k, _ in kinds] == ["FileNotFoundError", "InputError", "InputError"]
+    assert found.n_ignored == 2  # other.txt (not placed by the manifest) and README.md
+
+
+def test_manifest_needs_columns(tmp_path):
+    man = tmp_path / "m.csv"
+    man.write_text("file,who\nx.txt,A\n")
+    with pytest.raises(rrkit.InputError, match="manifest needs the columns path, subject"):
+        read_manifest(man)
+
+
+# ----------------------------------------------------------------------------- placement
+def test_placement_time_zone_dst_and_unmatched(tmp_path):
+    data = tmp_path / "data"
+    # file names carry local wall-clock times in Europe/Berlin; 29 March 2026 is the DST day
+    _write(data / "A01_2026-03-28_0730.txt", 1)
+    _write(data / "A01_2026-03-29_0730.txt", 2)
+    # two recordings on 30 March: the 04:10 one is before the wake window, 07:05 is chosen
+    _write(data / "A01_2026-03-30_0410.txt", 3)
+    _write(data / "A01_2026-03-30_0705.txt", 4)
+    _write(data / "A01_2026-03-30_0750.txt", 5)
+    # a morning whose first try is too short (rejected): the retake counts
+    _write(data / "A01_2026-03-31_0700.txt", 6, duration_s=90)
+    _write(data / "A01_2026-03-31_0710.txt", 7)
+    # 02:30 does not exist in Berlin on 29 March
+    _write(data / "A01_2026-03-29_0230.txt", 8)
+    # a file that matches no pattern and holds no subject or time stamps
+    _write(data / "misc" / "recording.txt", 9)
+    s = DailySettings(tz="Europe/Berlin", wake_start="05:00", wake_end="11:00")
+    summary = run_daily(data, tmp_path / "out", settings=s, executor=InlineExecutor())
+    t = summary.table.set_index("date")
+    assert t.loc[dt.date(2026, 3, 28), "start_time"] == "2026-03-28T07:30:00+01:00"
+    assert t.loc[dt.date(2026, 3, 29), "start_time"] == "2026-03-29T07:30:00+02:00"
+    assert t.loc[dt.date(2026, 3, 30), "source"] == "A01_2026-03-30_0705.txt"
+    assert t.loc[dt.date(2026, 3, 30), "n_recordings"] == 3
+    assert t.loc[dt.date(2026, 3, 31), "source"] == "A01_2026-03-31_0710.txt"
+    errs = summary.errors.set_index("path")
+    assert set(errs.index) == {"A01_2026-03-29_0230.txt", "misc/recording.txt"}
+    assert "does not exist in time zone Europe/Berlin" in errs.loc["A01_2026-03-29_0230.txt",
+                                                                   "message"]
+    msg = errs.loc["misc/recording.txt", "message"]
+    assert "no subject" in msg and "does not match the pattern" in msg
+    assert summary.exit_code == 1
+
+
+def test_placement_manifest_utc_start_local_date(tmp_path):
+    data = tmp_path / "data"
+    _write(data / "a.txt", 1)
+    _write(data / "b.txt", 2)
+    man = data / "manifest.csv"
+    # 23:30 UTC is 00:30 the next day in Berlin; the date is the local one
+    man.write_text("path,subject,start\n"
+                   "a.txt,A01,2026-03-01T23:30:00+00:00\n"
+                   "b.txt,A01,2026-03-03T06:00:00Z\n")
+    s = DailySettings(tz="Europe/Berlin", wake_start="00:00", wake_end="12:00")
+    t = run_daily(data, tmp_path / "out", manifest=man, settings=s,
+                  executor=InlineExecutor()).table
+    assert t["date"].tolist() == [dt.date(2026, 3, 2), dt.date(2026, 3, 3)]
+    assert t["start_time"].tolist() == ["2026-03-02T00:30:00+01:00", "2026-03-03T07:00:00+01:00"]
+    t_utc = run_daily(data, tmp_path / "out_utc", manifest=man, executor=InlineExecutor(),
+                      settings=DailySettings(wake_start="00:00", wake_end="12:00")).table
+    assert t_utc["date"].tolist()[0] == dt.date(2026, 3, 1)
+
+
+# ----------------------------------------------------------------------------- fault tolerance
+def test_fault_tolerance_cli_exit_code_and_errors_csv(tmp_path, capsys):
+    data = tmp_path / "data"
+    good = _squad_folder(data, n_days=6)
+    # a truncated gzip file, a binary file and an empty file among the good ones
+    raw = gzip.compress(good[0].read_bytes())
+    (data / "A01" / "A01_2026-03-08_0700.txt.gz").write_bytes(raw[: len(raw) // 2])
+    (data / "B02" / "B02_2026-03-08_0700.txt").write_bytes(bytes(range(256)) * 8)
+    (data / "B02" / "B02_2026-03-09_0700.txt").write_bytes(b"")
+    out = tmp_path / "out"
+    rc = main(["daily", str(data), "-o", str(out), "--jobs", "2"])
+    text = capsys.readouterr().out
+    assert rc == 1
+    errors = pd.read_csv(out / "errors.csv")
+    assert sorted(errors["path"]) == ["A01/A01_2026-03-08_0700.txt.gz",
+                                      "B02/B02_2026-03-08_0700.txt",
+                                      "B02/B02_2026-03-09_0700.txt"]
+    assert list(errors.columns) == ["path", "error_type", "message"]
+    daily = pd.read_csv(out / "daily.csv")
+    used = set(daily.loc[daily["quality"] != "missing", "source"])
+    assert used == {f.relative_to(data).as_posix() for f in good}  # every good file has its row
+    # the failed days are present, as missing, with the reason
+    failed_day = daily[(daily["subject"] == "B02") & (daily["date"] == "2026-03-09")].iloc[0]
+    assert failed_day["quality"] == "missing" and "errors.csv" in failed_day["quality_reason"]
+    assert "12 done, 0 skipped (unchanged), 3 failed" in text
+    assert "Training decisions rest with qualified staff" in text
+    for name in ("daily.parquet", "store.h5", "provenance.json", "weekly.csv", "recordings.csv"):
+        assert (out / name).is_file()
+
+
+def test_usage_error_exit_code(tmp_path, capsys):
+    (tmp_path / "d").mkdir()
+    assert main(["daily", str(tmp_path / "d"), "-o", str(tmp_path / "o"), "--tz", "Nowhere/X"]) == 2
+    assert "unknown time zone" in capsys.readouterr().err
+    assert main(["daily", str(tmp_path / "nope"), "-o", str(tmp_path / "o")]) == 2
+
+
+# ----------------------------------------------------------------------------- resume
+def test_rerun_unchanged_recomputes_nothing(tmp_path):
+    data = tmp_path / "data"
+    files = _squad_folder(data, n_days=5)
+    out = tmp_path / "out"
+    first = run_daily(data, out, executor=InlineExecutor())
+    assert (first.n_done, first.n_skipped, first.n_computed) == (10, 0, 10)
+    second = run_daily(data, out, executor=InlineExecutor())
+    assert (second.n_done, second.n_skipped, second.n_failed, second.n_computed) == (0, 10, 0, 0)
+    pd.testing.assert_frame_equal(first.table, second.table)
+    # one changed input is recomputed; a settings change recomputes everything
+    _write(files[0], seed=999)
+    third = run_daily(data, out, executor=InlineExecutor())
+    assert (third.n_done, third.n_skipped) == (1, 9)
+    fourth = run_daily(data, out, executor=InlineExecutor(),
+                       settings=DailySettings(window="start:30+240"))
+    assert (fourth.n_done, fourth.n_skipped) == (10, 0)
+    # baseline settings do not change a file's result: nothing recomputed
+    fifth = run_daily(data, out, executor=InlineExecutor(), settings=DailySettings(
+        window="start:30+240", baselines=BaselineSettings(band_sd=1.0)))
+    assert fifth.n_computed == 0
+
+
+def test_damaged_cache_entry_is_recomputed(tmp_path):
+    data = tmp_path / "data"
+    _squad_folder(data, subjects=("A01",), n_days=3)
+    out = tmp_path / "out"
+    first = run_daily(data, out, executor=InlineExecutor())
+    entry = sorted((out / ".rrkit-cache").glob("*.npz"))[0]
+    entry.write_bytes(entry.read_bytes()[:100])
+    again = run_daily(data, out, executor=InlineExecutor())
+    assert (again.n_done, again.n_skipped) == (1, 2)
+    pd.testing.assert_frame_equal(first.table, again.table)
+
+
+def test_killed_run_then_rerun_gives_same_table(tmp_path):
+    data = tmp_path / "data"
+    _squad_folder(data, subjects=("A01", "B02", "C03", "D04"), n_days=30)  # 120 files
+    ref = tmp_path / "ref"
+    assert main(["daily", str(data), "-o", str(ref), "--jobs", "2"]) == 0
+    out = tmp_path / "out"
+    cmd = [sys.executable, "-m", "rrkit", "daily", str(data), "-o", str(out), "--jobs", "1"]
+    proc = subprocess.Popen(cmd, stdout=subprocess.DEVNULL, stderr=subprocess.DEVNULL,
+                            start_new_session=True)
+    cache = out / ".rrkit-cache"
+    deadline = time.monotonic() + 60
+    try:
+        while time.monotonic() < deadline and proc.poll() is None:
+            if cache.is_dir() and len(list(cache.glob("*.npz"))) >= 10:
+                break
+            time.sleep(0.01)
+        assert proc.poll() is None, "the run ended before it could be interrupted"
+        os.killpg(proc.pid, signal.SIGKILL)  # the run and its worker process, by group id
+    finally:
+        proc.wait(timeout=30)
+    n_cached = len(list(cache.glob("*.npz")))
+    assert 10 <= n_cached < 120
+    assert not (out / "daily.csv").exists()  # killed before the end: no output at all
+    rerun = subprocess.run(cmd, capture_output=True, text=True, timeout=300)
+    assert rerun.returncode == 0, rerun.stderr
+    assert f"skipped (unchanged)" in rerun.stdout
+    skipped = int(rerun.stdout.rsplit(" done, ", 1)[1].split(" skipped")[0])
+    assert skipped >= n_cached - 1
+    assert (out / "daily.csv").read_bytes() == (ref / "daily.csv").read_bytes()
+    leftovers = [p for p in out.rglob("*") if p.name.endswith(TMP_SUFFIX)]
+    assert leftovers == []
+
+
+def test_stale_temporary_files_are_removed(tmp_path):
+    data = tmp_path / "data"
+    _squad_folder(data, subjects=("A01",), n_days=2)
+    out = tmp_path / "out"
+    out.mkdir()
+    stale = out / f".daily.csv.abc{TMP_SUFFIX}"
+    stale.write_text("partial")
+    run_daily(data, out, executor=InlineExecutor())
+    assert not stale.exists()
+
+
+def test_atomic_write_leaves_old_file_on_failure(tmp_path, monkeypatch):
+    target = tmp_path / "x.csv"
+    atomic_write_text(target, "old\n")
+
+    def boom(src, dst):
+        raise OSError("disk full")
+
+    monkeypatch.setattr(os, "replace", boom)
+    with pytest.raises(OSError, match="disk full"):
+        atomic_write_text(target, "new\n")
+    assert target.read_text() == "old\n"
+    assert list(tmp_path.iterdir()) == [target]
+
+
+# ----------------------------------------------------------------------------- executors
+def _square(x):
+    return x * x
+
+
+def test_local_executor_matches_inline():
+    items = list(range(37))
+    with LocalExecutor(2) as ex:
+        got = sorted(ex.imap_unordered(_square, items, chunksize=5))
+    assert got == [x * x for x in items]
+    assert isinstance(ex, rrkit.batch.Executor) and isinstance(InlineExecutor(), rrkit.batch.Executor)
+    with pytest.raises(rrkit.InputError, match="jobs must be in"):
+        LocalExecutor(0)
+
+
+def test_jobs_do_not_change_the_table(tmp_path):
+    data = tmp_path / "data"
+    _squad_folder(data, n_days=4)
+    a = run_daily(data, tmp_path / "a", executor=InlineExecutor()).table
+    b = run_daily(data, tmp_path / "b", jobs=2).table
+    pd.testing.assert_frame_equal(a, b)
+
+
+# ----------------------------------------------------------------------------- provenance
+def test_provenance_lists_every_input_hash(tmp_path):
+    import hashlib
+    import json
+
+    data = tmp_path / "data"
+    files = _squad_folder(data, subjects=("A01",), n_days=3)
+    summary = run_daily(data, tmp_path / "out", executor=InlineExecutor())
+    prov = json.loads(summary.outputs["provenance"].read_text())
+    assert prov["rrkit_version"] == rrkit.__version__
+    want = {f.relative_to(data).as_posix(): hashlib.sha256(f.read_bytes()).hexdigest()
+            for f in files}
+    assert {i["path"]: i["sha256"] for i in prov["inputs"]} == want
+    assert prov["settings"]["baselines"]["rolling_days"] == 7
+    assert prov["outputs"]["daily_csv"]["sha256"] == hashlib.sha256(
+        (tmp_path / "out" / "daily.csv").read_bytes()).hexdigest()
+    parquet = pd.read_parquet(tmp_path / "out" / "daily.parquet")
+    np.testing.assert_allclose(parquet["ln_rmssd"], summary.table["ln_rmssd"])
