@@ -216,14 +216,19 @@ def squad_overview(daily, path=None, *, phases=None, title: str | None = None, d
     y = np.arange(len(subjects) + 1) - 0.5
     mesh = ax.pcolormesh(x, y, np.clip(z, -_LIMIT, _LIMIT), cmap=cmap, norm=norm, edgecolors="white",
                          linewidth=0.3)
+    from matplotlib.patches import Patch
+
+    handles = [Patch(facecolor="#DDDDDD", edgecolor="white",
+                     label="no 7-day mean, or band not defined yet (baseline building up)")]
     if "below_band" in d.columns:
         b = d[d["below_band"].fillna(False).astype(bool)]
         xi = (b["date"] - days[0]).dt.days.to_numpy()
         yi = np.array([subjects.index(str(s)) for s in b["subject"]], dtype=float)
-        ax.scatter(xi, yi, s=9, color="white", edgecolor="#000000", lw=0.5,
-                   label="flagged below band in the daily table")
         if len(b):
-            ax.legend(loc="upper right", bbox_to_anchor=(1.0, -0.08), fontsize=8, frameon=False)
+            handles.append(ax.scatter(xi, yi, s=9, color="white", edgecolor="#000000", lw=0.5,
+                                      label="below band (flag in the daily table)"))
+    ax.legend(handles=handles, loc="upper center", bbox_to_anchor=(0.5, -0.09), fontsize=8,
+              ncol=2, frameon=False)
     ax.set_yticks(np.arange(len(subjects)), subjects)
     ax.invert_yaxis()
     mondays = [i for i, day in enumerate(days) if day.weekday() == 0]

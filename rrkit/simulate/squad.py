@@ -167,24 +167,26 @@ def _scaled_series(rng: np.random.Generator, *, mean_rr_ms: float, ln_rmssd: flo
     return rr[: int(np.searchsorted(t, duration_s, side="right")) + 1]
 
 
+_RUN = 30  # intervals in a run of junk
+_RUN_COUNTS = {"extra": 4, "missed": 3}
+
+
 def _add_artifacts(rr_ms: np.ndarray, counts: dict[str, int], seed: int) -> np.ndarray:
     """Plant artifacts with the library's injector.
 
     ``counts`` holds events per class of `rrkit.simulate.inject_artifacts` (missed, extra,
     ectopic, long, short) plus ``noise``: runs of junk from a sliding strap, each made by
-    planting extra, missed, long and short events tightly packed into a 25-interval stretch.
+    planting extra and missed beats one interval apart in a 30-interval stretch.
     """
     from . import inject_artifacts
 
     rng = np.random.default_rng(seed)
     rr = np.asarray(rr_ms, dtype=float)
     for _ in range(int(counts.get("noise", 0))):
-        k = int(rng.integers(10, max(11, rr.size - 40)))
-        seg = Recording.from_rr(rr[k:k + 25])
-        bad, _truth = inject_artifacts(seg, counts={"extra": 3, "missed": 1, "long": 1,
-                                                    "short": 2},
-                                       seed=rng, min_spacing=0)
-        rr = np.concatenate([rr[:k], bad.rr_ms, rr[k + 25:]])
+        k = int(rng.integers(10, max(11, rr.size - 45)))
+        seg = Recording.from_rr(rr[k:k + _RUN])
+        bad, _truth = inject_artifacts(seg, counts=_RUN_COUNTS, seed=rng, min_spacing=1)
+        rr = np.concatenate([rr[:k], bad.rr_ms, rr[k + _RUN:]])
     single = {k: int(v) for k, v in counts.items() if k != "noise" and v > 0}
     if single:
         rec, _truth = inject_artifacts(Recording.from_rr(rr), counts=single, seed=rng)
