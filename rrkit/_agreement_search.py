@@ -389,6 +389,22 @@ class DefinitionSearch:
         return "\n".join(lines) + "\n"
 
 
+def _identical_definitions(grid, metric: str) -> list[tuple[str, str]]:
+    """Pairs of definitions whose values agree on every night under every cleaning."""
+    wide = grid.pivot_table(index=["subject", "date", "cleaning"], columns="definition",
+                            values=metric, aggfunc="first", dropna=False)
+    names = list(dict.fromkeys(grid["definition"]))
+    out = []
+    for i, a in enumerate(names):
+        for b in names[i + 1:]:
+            x, y = wide[a].to_numpy(), wide[b].to_numpy()
+            ok = np.isfinite(x) & np.isfinite(y)
+            if ok.sum() >= 3 and np.array_equal(np.isfinite(x), np.isfinite(y)) and \
+                    np.allclose(x[ok], y[ok], rtol=1e-12, atol=0.0):
+                out.append((a, b))
+    return out
+
+
 def search_definitions(
     reported,
     nights: Sequence[Recording],
@@ -511,6 +527,9 @@ def search_definitions(
                                               other["diff"].loc[common].to_numpy()))
     table.insert(table.columns.get_loc("sd_diff") + 1, "sd_ratio_to_best", ratios)
     table.insert(table.columns.get_loc("sd_ratio_to_best") + 1, "p_vs_best", pvals)
+    same = _identical_definitions(grid, metric)
+    for a, b in same:
+        notes.append(f"{b} gives the same reference values as {a} for these nights")
     if ratio:
         notes.append("compared on the log scale: sd_diff is the SD of log ratios, bias and limits "
                      "are ratios")

@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import itertools
 from datetime import datetime, timedelta, timezone
 
 import numpy as np
@@ -18,7 +19,7 @@ def _hourly(night, width_s=600.0):
     t = night.interval_times_s
     edges = np.arange(0.0, night.duration_s + 1e-9, width_s)
     hr = []
-    for a, b in zip(edges[:-1], edges[1:], strict=True):
+    for a, b in itertools.pairwise(edges):
         sel = (t >= a) & (t < b)
         hr.append(60000.0 / night.rr_ms[sel].mean())
     return edges[:-1], np.array(hr)

@@ -146,8 +146,8 @@ def simulate_night(
     ``rr(t) = m(t) + g(t) f``, with ``m`` the mean RR and ``g`` the variability factor
     (proportional to ``(m / m_sleep)^2``, lower in awakenings). Beat ``k`` of the mean course
     falls where the integral of ``1 / m(t)`` reaches ``k``; the course is then evaluated again
-    at the cumulative sum of the intervals themselves. An 8-hour night (about 30,000 beats) takes well under a
-    second.
+    at the cumulative sum of the intervals themselves. An 8-hour night (about 30,000 beats)
+    takes a fraction of a second.
 
     Examples
     --------
