@@ -120,11 +120,16 @@ def clean(
 
     Examples
     --------
+    A simulated resting series with one missed beat (intervals 100 and 101 joined):
+
+    >>> import numpy as np
     >>> from rrkit import Recording, clean
-    >>> rr = [800, 810, 805, 1610, 800, 795, 805, 810, 800, 790, 805, 800]
+    >>> from rrkit.simulate import simulate_rr
+    >>> rr = simulate_rr(300, seed=1, as_recording=False)
+    >>> rr = np.concatenate((rr[:100], [rr[100] + rr[101]], rr[102:]))
     >>> res = clean(Recording.from_rr(rr))
-    >>> res.labels[3], res.recording.n_intervals
-    ('missed', 13)
+    >>> str(res.labels[100]), res.summary.counts["missed"], res.recording.n_intervals
+    ('missed', 1, 300)
     """
     if isinstance(recording, CleanResult):
         recording = recording.recording

@@ -94,13 +94,14 @@ def correct(rec: Recording, codes: np.ndarray, merge_next: np.ndarray, n_parts: 
     origin = np.repeat(np.arange(n), counts)
     out_rr = np.repeat(values, counts)
     out_gaps = np.repeat(out_gap, counts)
-    if n == 0:
+    if n == 0 or (not changed.any() and np.array_equal(out_gaps, gaps)):
         return rec, origin, changed
+    # untouched intervals keep their exact values; beat times follow from them (the rounding of
+    # the cumulative sum stays far inside Recording's consistency tolerance)
     times = np.empty(out_rr.size + 1)
     times[0] = t[0]
     np.cumsum(out_rr / 1000.0, out=times[1:])
     times[1:] += t[0]
-    out_rr = np.diff(times) * 1000.0  # exact agreement with the beat times
     sym = None
     if rec.beat_symbols is not None:
         # a corrected beat keeps the symbol of the input beat that starts its origin interval,

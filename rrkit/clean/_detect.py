@@ -59,8 +59,9 @@ def detect(rr_ms: np.ndarray, settings: CleanSettings) -> Detection:
         return _detect_median(rr, settings)
     if settings.method == "mad":
         return _detect_mad(rr, settings)
-    return _finish(rr, settings, np.ones(rr.size), np.zeros(rr.size, bool), np.zeros(rr.size, bool),
-                   np.zeros(rr.size, bool), np.zeros(rr.size, bool), np.ones(rr.size, int))
+    none = np.zeros(rr.size, bool)
+    return _finish(rr, settings, np.ones(rr.size), none, none, none, none, np.ones(rr.size, int),
+                   np.zeros(rr.size))
 
 
 # ---------------------------------------------------------------------------------- drr
@@ -93,6 +94,15 @@ def _detect_drr(rr: np.ndarray, s: CleanSettings) -> Detection:
 
     c1, c2 = s.drr_c1, s.drr_c2
     ectopic_at = ((d > 1) & (s12 < -c1 * d - c2)) | ((d < -1) & (s12 > -c1 * d + c2))
+    if s.drr_min_mrr > 0:
+        # rrkit's refinement: the beat must also stand out from the local median (an ectopic
+        # decision at beat n looks at both intervals around it)
+        stands_out = np.abs(dm) > s.drr_min_mrr
+        around = stands_out.copy()
+        around[1:] |= stands_out[:-1]
+        ectopic_at &= around
+    else:
+        stands_out = np.ones(m, bool)
     cand = ~ectopic_at & ((np.abs(d) > 1) | (np.abs(dm) > s.drr_mrr_limit))
     # a candidate also puts the following beat under test when its difference is the smaller
     follow = np.zeros(m, bool)
@@ -100,7 +110,7 @@ def _detect_drr(rr: np.ndarray, s: CleanSettings) -> Detection:
     check = cand | (follow & ~ectopic_at)
     is_long = (d > 1) & (s22 < -1)
     is_short = (d < -1) & (s22 > 1)
-    flagged = check & (is_long | is_short | (np.abs(dm) > s.drr_mrr_limit))
+    flagged = check & (is_long | is_short | (np.abs(dm) > s.drr_mrr_limit)) & stands_out
 
     pair_sum = np.empty(m)
     pair_sum[:-1] = rr[:-1] + rr[1:]
@@ -135,8 +145,8 @@ def _detect_mad(rr: np.ndarray, s: CleanSettings) -> Detection:
     ``MED = 3.32 QD(dRR)`` (maximum expected difference between veridical beats, with QD the
     quartile deviation of the signed successive differences), ``MAD = (median RR - 2.9 QD(RR))
     / 3`` (minimal artifact difference, with QD that of the intervals), criterion
-    ``(MED + MAD) / 2``. An interval whose differences to *both* neighbours exceed the criterion
-    (to the one neighbour it has, at the ends) stands out and is flagged.
+    ``(MED + MAD) / 2``. A successive difference above the criterion flags whichever of its two
+    intervals lies further from the 11-beat median.
     """
     m = rr.size
     if m == 0:
@@ -151,16 +161,16 @@ def _detect_mad(rr: np.ndarray, s: CleanSettings) -> Detection:
     med_diff = s.mad_med_factor * (dq3 - dq1) / 2.0
     min_art = (rmed - s.mad_mad_factor * (rq3 - rq1) / 2.0) / 3.0
     crit = np.maximum((med_diff + min_art) / 2.0, _MIN_THRESHOLD_MS)
-    jump_before = np.zeros(m, bool)
-    jump_after = np.zeros(m, bool)
-    if m > 1:
-        big = np.abs(np.diff(rr)) > crit[1:]
-        jump_before[1:] = big
-        jump_after[:-1] = big
-        jump_before[0] = jump_after[0]
-        jump_after[-1] = jump_before[-1]
-    flagged = jump_before & jump_after
     ref = rolling_median(rr, 11)
+    flagged = np.zeros(m, bool)
+    if m > 1:
+        # a jump larger than the criterion marks whichever of its two intervals lies further
+        # from the local median
+        jump = np.flatnonzero(np.abs(np.diff(rr)) > crit[1:])
+        dev = np.abs(rr - ref)
+        later = dev[jump + 1] >= dev[jump]
+        flagged[jump[later] + 1] = True
+        flagged[jump[~later]] = True
     return _classify_relative(rr, s, ref, crit, flagged)
 
 
@@ -169,11 +179,16 @@ def _classify_relative(rr: np.ndarray, s: CleanSettings, ref: np.ndarray, tol: n
     """Beat classes for methods that only say *which* intervals deviate (median, mad).
 
     With ``ref`` the local reference interval and ``tol`` the allowed deviation (ms):
-    a short flagged interval whose sum with a neighbour is within ``tol`` of ``ref`` is an extra
-    beat (the neighbour giving the closer sum); a flagged interval whose sum with the next one is
-    within ``tol`` of ``2 ref``, on the other side of ``ref`` and differing from it by more than
-    ``tol``, marks a premature or misplaced beat between them (ectopic); a long one close to
-    ``k ref`` (k = 2 .. max_hidden_beats + 1) is a missed beat; the rest are long or short.
+
+    - extra: a short flagged interval whose sum with a neighbour is within ``tol / 2`` of
+      ``ref`` (the neighbour giving the closer sum);
+    - ectopic: a flagged interval whose sum with the next (or the previous) one is within
+      ``tol`` of ``2 ref``, on the other side of ``ref`` and differing from it by more than
+      ``tol``: a premature or misplaced beat lies between them;
+    - missed: a long one within ``tol / 2`` of ``k ref`` (k = 2 .. max_hidden_beats + 1);
+    - long or short: the rest.
+
+    The halved tolerances keep a long interval of 1.6 ``ref`` from reading as a missed beat.
     """
     m = rr.size
     nxt = np.append(rr[1:], np.inf)
@@ -183,18 +198,23 @@ def _classify_relative(rr: np.ndarray, s: CleanSettings, ref: np.ndarray, tol: n
     err_next = np.abs(rr + nxt - ref)
     err_prev = np.abs(rr + prv - ref)
     # extra pairs start at j (with j + 1) or at j - 1 (with j), whichever sums closer to ref
-    extra_fwd = short & (err_next < tol) & (err_next <= err_prev)
-    extra_bwd = short & (err_prev < tol) & (err_prev < err_next)
+    half = tol / 2.0
+    extra_fwd = short & (err_next < half) & (err_next <= err_prev)
+    extra_bwd = short & (err_prev < half) & (err_prev < err_next)
     extra = extra_fwd.copy()
     extra[:-1] |= extra_bwd[1:]
     side = np.sign(rr - ref)
     side_next = np.append(side[1:], 0)
     pair = (flagged & (np.abs(rr + nxt - 2 * ref) < tol) & (side * side_next < 0)
             & (np.abs(nxt - rr) > tol))
-    ectopic_at = np.zeros(m, bool)  # premature beat j + 1 between intervals j and j + 1
+    side_prev = np.insert(side[:-1], 0, 0)
+    pair_back = (flagged & (np.abs(rr + prv - 2 * ref) < tol) & (side * side_prev < 0)
+                 & (np.abs(rr - prv) > tol))
+    ectopic_at = np.zeros(m, bool)  # premature beat j between intervals j - 1 and j
     ectopic_at[1:] = pair[:-1] & ~extra[:-1]
+    ectopic_at |= pair_back & ~extra
     k = np.clip(np.rint(rr / ref), 2, s.max_hidden_beats + 1)
-    missed = long_ & (np.abs(rr / k - ref) < tol) & (rr > 1.5 * ref)
+    missed = long_ & (np.abs(rr / k - ref) < half) & (rr > 1.5 * ref)
     longshort = flagged & ~missed
     strength = np.zeros(m)
     strength[1:] = np.abs(np.diff(rr))
@@ -206,9 +226,10 @@ def _finish(rr, s, ref, ectopic_at, extra, missed, longshort, k, strength) -> De
     """Resolve overlapping decisions by priority and apply the plausible range.
 
     Ectopic decisions on adjacent beats describe one premature beat (the pattern around a
-    premature beat also satisfies the rule, more weakly, one beat earlier or later): of each run
-    of adjacent decisions only the beat with the largest ``strength`` (normalised successive
-    difference) is kept (rrkit's refinement of the published rule).
+    premature beat also satisfies the rule, more weakly, one beat earlier or later): within a
+    run of adjacent decisions the beats are kept strongest first (largest ``strength``, the
+    normalised successive difference), skipping any beat next to one already kept (rrkit's
+    refinement of the published rule).
     Priority: ectopic pair > extra pair > missed > long/short. An interval outside
     ``[min_rr_ms, max_rr_ms]`` that is not explained as part of a missed or extra beat (or an
     ectopic pair) is ``implausible``.
@@ -257,7 +278,7 @@ def _finish(rr, s, ref, ectopic_at, extra, missed, longshort, k, strength) -> De
 
 
 def _strongest_of_runs(idx: np.ndarray, strength: np.ndarray) -> np.ndarray:
-    """Of each run of consecutive indices keep the one with the largest strength."""
+    """Thin runs of consecutive indices: strongest first, never two neighbours."""
     if idx.size < 2:
         return idx
     brk = np.flatnonzero(np.diff(idx) != 1) + 1
@@ -270,7 +291,11 @@ def _strongest_of_runs(idx: np.ndarray, strength: np.ndarray) -> np.ndarray:
     for r in multi:  # loops over runs of flagged beats only
         a, b = starts[r], ends[r]
         keep[a:b] = False
-        keep[a + int(np.argmax(strength[idx[a:b]]))] = True
+        # strongest first; a beat is kept unless a neighbour already is (so a burst of
+        # alternating intervals keeps every other beat and all its intervals stay ectopic)
+        for j in a + np.argsort(-strength[idx[a:b]], kind="stable"):
+            if not ((j > a and keep[j - 1]) or (j + 1 < b and keep[j + 1])):
+                keep[j] = True
     return idx[keep]
 
 
