@@ -47,7 +47,8 @@ def test_search_finds_hidden_definition_and_bias(nights, hidden, noise_sd):
     assert 0.5 * noise_sd < best.stats["sd_diff"] < 1.6 * noise_sd
     # the table says how much closer the best is than the next definition
     ru = found.runner_up
-    assert ru is not None and ru[0] != hidden
+    assert ru is not None
+    assert ru[0] != hidden
     row = found.table[(found.table["definition"] == ru[0]) & (found.table["cleaning"] == ru[1])]
     assert float(row["sd_ratio_to_best"].iloc[0]) > 1.3
     assert f"Closest: {hidden}" in found.summary_text()
