@@ -55,13 +55,14 @@ def peaks_to_seconds(values: np.ndarray, *, unit: str, fs_hz: float | None, path
         where = f" in column {column!r}" if column else ""
         raise InputError(
             f"peak time {values[j]:g}{where} {verb} {values[j - 1]:g}{prev}, expected peak times "
-            f"that increase ({bad.size} such steps)", path=path, line=_line(lines, j),
+            "that increase" + (f" ({bad.size} such steps)" if bad.size > 1 else ""),
+            path=path, line=_line(lines, j),
             hint="sort the file, or pass kind='rr' if the values are intervals")
     if unit == "samples":
         if fs_hz is None:
             raise InputError(
                 "peak positions in samples need the sampling rate to become times",
-                path=path, hint="pass fs= (the sampling rate in Hz)")
+                path=path, hint="pass fs=, the sampling rate in Hz")
         return values / fs_hz
     return values * _TO_S[unit]
 

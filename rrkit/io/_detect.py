@@ -130,7 +130,7 @@ def decide_rr_unit(values: np.ndarray, *, path: str, lines: np.ndarray,
         j = int(odd[0])
         raise InputError(
             f"mixed units in column {column!r}: most values are {unit} but {values[j]:g} looks "
-            f"like {other} ({odd.size} such values)",
+            f"like {other}" + (f" ({odd.size} such values)" if odd.size > 1 else ""),
             path=path, line=int(lines[j]),
             hint="convert the column to one unit, or pass unit= to read the values as they are")
     return unit, why
@@ -155,7 +155,7 @@ def decide_peak_unit(values: np.ndarray, *, fs_hz: float | None, path: str,
         raise InputError(
             f"peak values in column {column!r} step by a median {step:g}, which fits neither "
             "seconds nor milliseconds; whole numbers like these are usually sample indices",
-            path=path, hint="pass fs= (the sampling rate in Hz) to read them as samples")
+            path=path, hint="pass fs=, the sampling rate in Hz, to read them as samples")
     raise InputError(
         f"peak times in column {column!r} step by a median {step:g}, which fits neither "
         f"seconds ({RR_RANGE_S[0]:g}-{RR_RANGE_S[1]:g}) nor milliseconds "

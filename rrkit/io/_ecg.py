@@ -15,8 +15,9 @@ Steps
 4. R peaks per segment with ``neurokit2.ecg_peaks(method=detector)``; the default detector is
    ``"neurokit"`` (neurokit2's own default: QRS slope envelope with adaptive thresholds).
 5. Intervals that span an unusable stretch are marked as gaps in the `Recording`.
-6. Detection quality: the share of detected beats whose QRS (±0.1 s around the peak) correlates
-   at r >= 0.8 with the median beat of the record, plus the share of usable signal. A low figure
+6. Detection quality: the share of detected beats whose QRS (±0.1 s around the largest
+   deflection within 0.05 s of the detected peak) correlates at r >= 0.8 with the median beat
+   of the record, plus the share of usable signal. A low figure
    warns (`QualityWarning`); no beats at all is an `InputError`.
 """
 
@@ -48,6 +49,7 @@ _PAD_S = 0.05          # margin cut around an unusable stretch
 _MIN_SEGMENT_S = 2.0   # shortest segment worth filtering and searching
 _INVERT_WINDOW_S = 2.0
 _QRS_HALF_S = 0.1      # QRS template half-width
+_ALIGN_S = 0.05        # search for the largest deflection this far around a detected peak
 _MATCH_R = 0.8         # beats matching the median beat at least this well count as good
 _WARN_QUALITY = 0.7    # warn below this share of well-matching beats
 _WARN_USABLE = 0.8     # warn below this share of usable signal
@@ -72,7 +74,7 @@ def _unusable(sig: np.ndarray, fs: float) -> tuple[np.ndarray, dict[str, Any]]:
     filled = np.where(nan, lo, sig)
     same = np.abs(np.diff(filled)) <= tol
     bad = nan.copy()
-    min_len = max(int(round(_FLAT_MIN_S * fs)), 2)
+    min_len = max(round(_FLAT_MIN_S * fs), 2)
     starts, stops = _runs(same)
     flat_samples = 0
     for a, b in zip(starts, stops, strict=True):
@@ -81,7 +83,7 @@ def _unusable(sig: np.ndarray, fs: float) -> tuple[np.ndarray, dict[str, Any]]:
             flat_samples += b - a + 1
     rail = (np.abs(filled - hi) <= tol) | (np.abs(filled - lo) <= tol)
     clipped_pct = 100.0 * float(np.mean(rail & ~nan & np.concatenate(([False], same))))
-    pad = int(round(_PAD_S * fs))
+    pad = round(_PAD_S * fs)
     if pad and bad.any():
         s2, e2 = _runs(bad)
         for a, b in zip(s2, e2, strict=True):
@@ -92,7 +94,7 @@ def _unusable(sig: np.ndarray, fs: float) -> tuple[np.ndarray, dict[str, Any]]:
 
 def _is_inverted(segments: list[np.ndarray], fs: float) -> tuple[bool, float]:
     """(inverted?, share of windows whose largest deflection is negative)."""
-    w = int(round(_INVERT_WINDOW_S * fs))
+    w = round(_INVERT_WINDOW_S * fs)
     picks = []
     for x in segments:
         k = x.size // w
@@ -134,12 +136,17 @@ def _peaks(x: np.ndarray, fs: float, detector: str) -> np.ndarray:
 
 def _quality(segments_clean: list[np.ndarray], seg_peaks: list[np.ndarray], fs: float) -> float:
     """Share of beats whose QRS correlates at r >= 0.8 with the record's median beat."""
-    half = int(round(_QRS_HALF_S * fs))
+    half = round(_QRS_HALF_S * fs)
+    look = round(_ALIGN_S * fs)
     offs = np.arange(-half, half + 1)
+    near = np.arange(-look, look + 1)
     beats = []
     for x, p in zip(segments_clean, seg_peaks, strict=True):
-        p = p[(p >= half) & (p < x.size - half)]
+        p = p[(p >= half + look) & (p < x.size - half - look)]
         if p.size:
+            # detectors mark different points of the QRS: centre each beat on its largest
+            # deflection nearby, so the figure rates the beats, not the detector's fiducial
+            p = p + near[np.argmax(np.abs(x[p[:, None] + near]), axis=1)]
             beats.append(x[p[:, None] + offs])
     if not beats:
         return 0.0
@@ -184,7 +191,7 @@ def detect_beats(signal, *, fs_hz: float | None, detector: str = DEFAULT_DETECTO
     """
     if fs_hz is None:
         raise InputError(f"reading {what} needs its sampling rate; there is no default",
-                         path=path, hint="pass fs= in Hz (for example fs=250)")
+                         path=path, hint="pass fs= in Hz, for example fs=250")
     fs = check_range("fs", fs_hz, low=_MIN_FS_HZ, unit="Hz")
     detector = check_option("detector", detector, DETECTORS)
     sig = np.asarray(signal, dtype=np.float64).ravel()
@@ -224,7 +231,7 @@ def detect_beats(signal, *, fs_hz: float | None, detector: str = DEFAULT_DETECTO
             f"found {n_found} heartbeat{'s' if n_found != 1 else ''} in the {what} "
             f"({usable:.0%} of it usable), expected at least {MIN_INTERVALS + 1} (too few "
             f"beats); the lead may be noisy, flat or disconnected", path=path,
-            hint="try another channel (column=) or another detector (detector=)")
+            hint="try another channel with column= or another detector with detector=")
     peaks = np.concatenate([p + a for p, a in zip(seg_peaks, starts, strict=True)])
     seg_id = np.concatenate([np.full(p.size, k) for k, p in enumerate(seg_peaks)])
     gaps = np.diff(seg_id) != 0

@@ -65,7 +65,7 @@ def _pick_channel(labels: list[str], column, path: str) -> int:
     if len(labels) == 1:
         return 0
     raise InputError(f"no channel is labelled as an ECG lead; channels: {labels}", path=path,
-                     hint="pass column= (a channel label or 0-based index)")
+                     hint="pass column=, a channel label or 0-based index")
 
 
 def _check_fs(given: float | None, header: float, path: str) -> float:
@@ -180,7 +180,8 @@ def read_edf(path: str, *, fs_hz: float | None, column, detector: str, subject: 
     try:
         reader = pyedflib.EdfReader(str(path))
     except OSError as exc:
-        raise InputError(f"cannot read as EDF ({exc}), expected an EDF/EDF+ file", path=path) from None
+        raise InputError(f"cannot read as EDF ({exc}), expected an EDF/EDF+ file",
+                         path=path) from None
     try:
         labels = [str(s).strip() for s in reader.getSignalLabels()]
         k = _pick_channel(labels, column, path)

@@ -45,10 +45,12 @@ def _resolve_column(table: TextTable, column: str | int, *, what: str) -> int:
         return int(want)
     import difflib
 
-    close = difflib.get_close_matches(str(column), table.names, n=1)
+    lowered = {name.strip().lower(): name for name in table.names}
+    close = difflib.get_close_matches(want, list(lowered), n=1, cutoff=0.5)
     raise InputError(
         f"{what}={column!r} is not a column of this file; columns: {table.names}",
-        path=table.path, hint=f"did you mean {close[0]!r}?" if close else "pass a column name or a 0-based index")
+        path=table.path,
+        hint=f"did you mean {lowered[close[0]]!r}?" if close else "pass a name or a 0-based index")
 
 
 def _sniff_numbers(table: TextTable, col: int) -> np.ndarray | None:
@@ -71,7 +73,7 @@ def _layout(table: TextTable, timestamp_column: str | int | None) -> dict[str, A
         ts_numeric = types[ts_col] == "number"
     else:
         for k, typ in enumerate(types):
-            if typ == "timestamp":
+            if typ == "timestamp" or (typ != "number" and roles[k]["role"] == "timestamp"):
                 ts_col = k
                 break
         if ts_col is None and len(types) > 1:
@@ -126,7 +128,8 @@ def _choose_value_column(table, lay, *, kind, column, fs_hz) -> tuple[int | None
                          hint="pass column=")
     raise InputError(
         f"found {len(numeric)} numeric columns {[table.names[k] for k in numeric]} and none named "
-        "as RR intervals, peak times or ECG", path=table.path, hint="pass column= (name or 0-based index)")
+        "as RR intervals, peak times or ECG", path=table.path,
+        hint="pass column=, a name or 0-based index")
 
 
 def read_table(path: str, *, kind: str, unit: str, fs_hz: float | None, column,
@@ -200,7 +203,7 @@ def read_table(path: str, *, kind: str, unit: str, fs_hz: float | None, column,
         use_unit, unit_by = decide_peak_unit(values, fs_hz=fs_hz, path=table.path, column=name)
     if use_unit == "samples" and fs_hz is None:
         raise InputError(f"column {name!r} holds sample indices, which need the sampling rate",
-                         path=table.path, hint="pass fs= (the sampling rate in Hz)")
+                         path=table.path, hint="pass fs=, the sampling rate in Hz")
 
     start: datetime | None = None
     gaps = None

@@ -21,6 +21,7 @@ Rules (each recorded in `TextTable.extra`):
 from __future__ import annotations
 
 import gzip
+import itertools
 import os
 import re
 import zlib
@@ -41,8 +42,9 @@ _SNIFF_ROWS = 200
 
 _NUMBER_RE = re.compile(r"^[+-]?(?:\d+(?:[.,]\d*)?|[.,]\d+)(?:[eE][+-]?\d+)?$")
 _SPECIAL_RE = re.compile(r"^[+-]?(?:nan|inf|infinity)$", re.IGNORECASE)
-_ISO_RE = re.compile(r"^\d{4}-\d{2}-\d{2}(?:[T ]\d{2}:\d{2}(?::\d{2}(?:[.,]\d+)?)?)?(?:Z|[+-]\d{2}:?\d{2})?$")
-_DECIMAL_COMMA_RE = re.compile(r"^[+-]?\d*,\d+$")
+_ISO_RE = re.compile(
+    r"^\d{4}-\d{2}-\d{2}(?:[T ]\d{2}:\d{2}(?::\d{2}(?:[.,]\d+)?)?)?(?:Z|[+-]\d{2}:?\d{2})?$")
+_DECIMAL_COMMA_RE = re.compile(r"^[+-]?\d*,\d+(?:[eE][+-]?\d+)?$")
 _TOKEN_SPLIT_RE = re.compile(r"[,;\t ]+")
 _CONTROL_RE = re.compile(r"[\x00-\x08\x0b\x0e-\x1f\x7f]")
 
@@ -116,7 +118,8 @@ def read_text(path: str | os.PathLike[str]) -> tuple[str, dict[str, Any]]:
     nul = head.find(b"\x00")
     if nul >= 0:
         raise InputError(f"binary data (a NUL byte at byte {nul}), expected a text file",
-                         path=p, hint="for EDF or WFDB files use their extension (.edf, .hea, .atr)")
+                         path=p,
+                         hint="EDF and WFDB files are known by their extension: .edf, .hea, .atr")
     info["bom"] = raw.startswith(b"\xef\xbb\xbf")
     try:
         text = raw.decode("utf-8-sig")
@@ -152,6 +155,23 @@ def _split(line: str, sep: str | None) -> list[str]:
     return [t.strip() for t in line.split(sep)]
 
 
+def _lone_decimal_comma(rows: list[str]) -> bool:
+    """True when rows like ``812,5`` are single numbers with a decimal comma.
+
+    Every row is a number with at most one comma, the whole parts have at most 9 digits (RR and
+    peak times in s or ms; Unix epoch times are longer) and they do not count 1, 2, 3, ...
+    (that is an index column before a comma separator).
+    """
+    if not all(_DECIMAL_COMMA_RE.match(r) or (_NUMBER_RE.match(r) and "," not in r and "."
+                                              not in r) for r in rows):
+        return False
+    whole = [r.split(",", 1)[0].lstrip("+-") for r in rows]
+    if any(len(w) > 9 for w in whole):
+        return False
+    ints = [int(w) if w else 0 for w in whole]
+    return not (len(ints) > 2 and all(b - a == 1 for a, b in itertools.pairwise(ints)))
+
+
 def _choose_separator(rows: list[str], header: str | None) -> tuple[str | None, str]:
     """Separator and decimal mark from sample data rows (see the module notes)."""
     def share(ch: str) -> float:
@@ -162,8 +182,7 @@ def _choose_separator(rows: list[str], header: str | None) -> tuple[str | None, 
     elif share("\t") > 0.5:
         sep = "\t"
     elif share(",") > 0.5:
-        if all(_DECIMAL_COMMA_RE.match(r) or _NUMBER_RE.match(r) for r in rows) and not (
-                header and ("," in header)):
+        if _lone_decimal_comma(rows) and not (header and ("," in header)):
             return None, ","
         sep = ","
     elif any(" " in r for r in rows):

@@ -34,7 +34,8 @@ def epoch_scale(values: np.ndarray) -> tuple[float, str] | None:
     return None
 
 
-def parse_timestamps(table: TextTable, col: int, *, numeric: bool) -> tuple[np.ndarray, datetime, str]:
+def parse_timestamps(table: TextTable, col: int, *,
+                     numeric: bool) -> tuple[np.ndarray, datetime, str]:
     """Seconds of each row after the first row's time, the first row's datetime, and how.
 
     Raises

@@ -1,0 +1,113 @@
+"""``rrkit info`` end to end: main([...]) with files in tmp_path, output read from capsys.
+
+Expected numbers are hand-computed from the tiny inputs (comment beside each check) or the
+MIT-BIH record 100 counts (../shared/data/mitdb-100/README.md).
+"""
+
+from __future__ import annotations
+
+from pathlib import Path
+
+import pytest
+
+from rrkit.cli import main
+
+
+def _rr_file(tmp_path):
+    path = tmp_path / "morning.csv"
+    path.write_text("timestamp;RR (ms)\n"
+                    "2026-03-01T07:00:01.000+01:00;1000\n"
+                    "2026-03-01T07:00:01.750+01:00;750\n"
+                    "2026-03-01T07:00:02.750+01:00;1000\n"
+                    "2026-03-01T07:00:03.250+01:00;500\n")
+    return path
+
+
+def test_info_rr_table(tmp_path, capsys):
+    assert main(["info", str(_rr_file(tmp_path))]) == 0
+    out = capsys.readouterr().out
+    assert "kind       rr  (decided by: column name 'RR (ms)')" in out
+    assert "unit       ms  (decided by: column name 'RR (ms)')" in out
+    assert "beats      5 beats, 4 intervals" in out
+    assert "duration   0:03.2 (3.2 s)" in out  # 1000 + 750 + 1000 + 500 ms
+    assert "start      2026-03-01T07:00:00+01:00" in out  # first stamp minus its 1000 ms
+    assert "HR range   60 to 120 bpm, median 70 bpm" in out  # 60000/1000 .. 60000/500
+    assert "gaps       none" in out
+    assert "separator semicolon" in out
+
+
+def test_info_options_and_samples(tmp_path, capsys):
+    path = tmp_path / "peaks.txt"
+    path.write_text("0\n250\n500\n760\n1000\n")  # sample indices at 250 Hz
+    assert main(["info", str(path), "--kind", "peaks", "--unit", "samples", "--fs", "250"]) == 0
+    out = capsys.readouterr().out
+    assert "kind       peaks  (decided by: given)" in out
+    assert "unit       samples  (decided by: given)" in out
+    assert "fs         250 Hz" in out
+    assert "HR range   58 to 62 bpm" in out  # 250 samples = 1 s -> 60 bpm; 260 -> 57.7; 240 -> 62.5
+
+
+def test_info_annotations_and_ecg(mitdb100, capsys):
+    assert main(["info", f"{mitdb100}.atr", f"{mitdb100}.hea"]) == 0
+    out = capsys.readouterr().out
+    atr, ecg = out.split("\n\n")
+    assert "beats      2273 beats, 2272 intervals" in atr  # README: 2,273 beats
+    assert "symbols    N x2239, A x33, V x1" in atr
+    assert "non-beats  1 skipped (+ x1)" in atr
+    assert "kind       ecg" in ecg
+    assert "fs         360 Hz" in ecg
+    assert "ECG        detector neurokit; inverted lead no;" in ecg
+    assert "% of beats match the median beat" in ecg
+
+
+def test_info_error_is_one_line(tmp_path, capsys):
+    bad = tmp_path / "bad.txt"
+    bad.write_text("812\n790\nabc\n800\n")
+    assert main(["info", str(bad)]) == 2
+    err = capsys.readouterr().err
+    expected = f"{bad}, line 3: found 'abc' in column 'column 1', expected a number"
+    assert err.strip() == f"rrkit: error: {expected}"
+    assert main(["info", str(tmp_path / "missing.txt")]) == 2
+    assert "file not found" in capsys.readouterr().err
+
+
+def test_info_several_files_one_bad(tmp_path, capsys):
+    good = _rr_file(tmp_path)
+    bad = tmp_path / "empty.txt"
+    bad.write_text("")
+    assert main(["info", str(bad), str(good)]) == 2
+    captured = capsys.readouterr()
+    assert "the file is empty" in captured.err
+    assert str(good) in captured.out
+    assert "beats      5 beats" in captured.out
+
+
+def test_info_debug_raises(tmp_path):
+    from rrkit import InputError
+
+    bad = tmp_path / "empty.txt"
+    bad.write_text("")
+    with pytest.raises(InputError, match="the file is empty"):
+        main(["--debug", "info", str(bad)])
+
+
+def test_info_help(capsys):
+    assert main(["info", "--help"]) == 0
+    out = capsys.readouterr().out
+    assert "--kind" in out
+    assert "--fs" in out
+    assert "not a medical device" in out
+
+
+def test_info_gaps_and_warning(tmp_path, capsys, rng):
+    path = tmp_path / "drop.csv"
+    stamps = [0.8, 1.6, 2.4, 33.2, 34.0, 34.8]
+    path.write_text("ts,rr_ms\n" + "".join(f"2026-03-01T07:00:{s:06.3f}Z,800\n" for s in stamps))
+    assert main(["info", str(path)]) == 0
+    out = capsys.readouterr().out
+    assert "gaps       1 (30.0 s); no successive difference crosses them" in out
+    noise = tmp_path / "noise.csv"
+    noise.write_text("ecg\n" + "".join(f"{v:.5f}\n" for v in rng.normal(size=7500)))
+    assert main(["info", str(noise), "--fs", "250"]) == 0
+    assert "rrkit: warning:" in capsys.readouterr().err
+    assert Path(noise).exists()
