@@ -116,7 +116,6 @@ def clean(
 
     Berntson GG, Quigley KS, Jang JF, Boysen ST (1990). An approach to artifact identification:
     application to heart period data. Psychophysiology 27(5):586-598.
-    doi:10.1111/j.1469-8986.1990.tb01982.x
 
     Examples
     --------
