@@ -38,40 +38,27 @@ class Night:
         Beat positions as sample indices at `FS_HZ` (1 ms resolution).
     artifact_intervals : numpy.ndarray of int
         Indices (into ``recording``'s intervals) of the injected artifacts.
-    truth_labels : numpy.ndarray of str or None
-        The true label of every interval of ``recording``, when the simulator gives it.
+    truth_labels : numpy.ndarray of str
+        The true label of every interval of ``recording``.
+    events : dict of str -> numpy.ndarray of int
+        Per class, the index of the first interval each injected event touches.
     """
 
     truth: Any
     recording: Any
     peaks: np.ndarray
     artifact_intervals: np.ndarray
-    truth_labels: np.ndarray | None
+    truth_labels: np.ndarray
+    events: dict
 
 
-def _truth_labels(truth: Any, n: int) -> np.ndarray:
-    """The per-interval true labels from what `inject_artifacts` returned."""
-    for name in ("labels", "label", "true_labels"):
-        lab = getattr(truth, name, None)
-        if lab is None and isinstance(truth, dict):
-            lab = truth.get(name)
-        if lab is not None:
-            lab = np.asarray(lab).astype(str)
-            if lab.shape == (n,):
-                return lab
-    raise RuntimeError(
-        "cannot find the per-interval true labels in what rrkit.simulate.inject_artifacts "
-        f"returned ({type(truth).__name__}); the bench needs them to score the cleaning")
+#: Injected artifact classes, in equal shares (Lipponen & Tarvainen 2019 classes).
+ARTIFACT_MIX = ("ectopic", "missed", "extra", "long", "short")
 
 
-def _truth_rr(truth: Any) -> Any:
-    for name in ("clean", "truth", "recording", "clean_recording", "rr_ms", "clean_rr_ms"):
-        v = getattr(truth, name, None)
-        if v is None and isinstance(truth, dict):
-            v = truth.get(name)
-        if v is not None:
-            return v
-    return None
+def artifact_rates(total: float) -> dict[str, float]:
+    """Per-class rates for `rrkit.simulate.inject_artifacts` summing to ``total`` events."""
+    return {c: total / len(ARTIFACT_MIX) for c in ARTIFACT_MIX}
 
 
 def make_night(*, duration_s: float = 8 * 3600.0, artifact_rate: float = 0.02,
@@ -81,21 +68,16 @@ def make_night(*, duration_s: float = 8 * 3600.0, artifact_rate: float = 0.02,
     from rrkit.simulate import inject_artifacts, simulate_rr
 
     clean = simulate_rr(duration_s=duration_s, seed=seed, mean_rr_ms=1000.0)
-    art, truth = inject_artifacts(clean, rate=artifact_rate, seed=seed + 1)
+    art, truth = inject_artifacts(clean, rates=artifact_rates(artifact_rate), seed=seed + 1)
     # Same peaks for both sides: integer samples at FS_HZ, as an ECG detector would give them.
     peaks = np.round(np.asarray(art.beat_times_s) * FS_HZ).astype(np.int64)
-    keep = np.concatenate(([True], np.diff(peaks) > 0))
-    if not keep.all():  # two beats in one sample after rounding cannot happen at 1 kHz in sinus
+    if np.any(np.diff(peaks) <= 0):  # cannot happen at 1 kHz for intervals over 250 ms
         raise RuntimeError("rounding to samples merged beats")
     rec = Recording.from_peak_times(peaks / FS_HZ)
-    labels = _truth_labels(truth, rec.n_intervals)
-    art_idx = np.flatnonzero(labels != "normal")
-    t_rr = _truth_rr(truth)
-    truth_rec = clean
-    if isinstance(t_rr, Recording):
-        truth_rec = t_rr
-    return Night(truth=truth_rec, recording=rec, peaks=peaks, artifact_intervals=art_idx,
-                 truth_labels=labels)
+    labels = np.asarray(truth.labels).astype(str)
+    return Night(truth=truth.clean, recording=rec, peaks=peaks,
+                 artifact_intervals=np.flatnonzero(labels != "normal"), truth_labels=labels,
+                 events={k: np.asarray(v, dtype=np.int64) for k, v in truth.events.items()})
 
 
 def write_rr_file(path: Path, recording: Any) -> Path:
@@ -153,7 +135,7 @@ def make_season(
                               mean_rr_ms=base_rr + rng.normal(0, 30.0),
                               resp_amp_ms=max(5.0, base_amp * rng.lognormal(0.0, 0.15)))
             if artifact_rate > 0:
-                rec, _ = inject_artifacts(rec, rate=artifact_rate, seed=rng)
+                rec, _ = inject_artifacts(rec, rates=artifact_rates(artifact_rate), seed=rng)
             rel = Path("files") / subject / f"{subject}_{start:%Y-%m-%d}.txt"
             write_rr_file(root / rel, rec)
             rows.append(f"{rel.as_posix()},{subject},{start.isoformat()}")
@@ -166,7 +148,7 @@ def make_season(
             start = day0 + timedelta(days=k, hours=-1)
             rec = simulate_rr(duration_s=night_s, seed=rng)
             if artifact_rate > 0:
-                rec, _ = inject_artifacts(rec, rate=artifact_rate, seed=rng)
+                rec, _ = inject_artifacts(rec, rates=artifact_rates(artifact_rate), seed=rng)
             rel = Path(f"night_{k:02d}_{subject}.txt")
             write_rr_file(root / "nights" / rel, rec)
             nrows.append(f"{rel.as_posix()},{subject},{start.isoformat()}")

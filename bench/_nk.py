@@ -93,14 +93,15 @@ def nk_window_metrics(
     times_s: np.ndarray,
     *,
     sampen_r: float | None = None,
-    dfa_overlap: bool = True,
+    dfa_overlap: bool = False,
 ) -> dict[str, float]:
     """The metric set of one window with neurokit2, mapped to rrkit's key names.
 
     Calls ``hrv_time``, ``hrv_frequency`` (Welch, ``interpolation_rate=4``, ``normalize=False``),
     ``entropy_sample`` (m = 2, r given, default 0.2 SD with ddof=1) and ``fractal_dfa`` over
-    scales 4-16 (alpha1) and 16-64 (alpha2) beats, on the given NN intervals (ms) and the times
-    (s) of the beats that end them.
+    scales 4-16 (alpha1) and 16-64 (alpha2) beats with non-overlapping boxes (Peng et al. 1995;
+    the box layout rrkit uses), on the given NN intervals (ms) and the times (s) of the beats
+    that end them.
     """
     nk = _nk()
     rr_ms = np.asarray(rr_ms, dtype=float)

@@ -9,16 +9,16 @@ __all__ = ["analyze", "metric_rows", "sliding"]
 
 def sliding(length_s: float, step_s: float) -> Any:
     """A sliding-window spec of ``length_s`` seconds every ``step_s`` seconds."""
-    from rrkit import windows
+    from rrkit.windows import Sliding
 
-    return windows.parse_window(f"sliding:{length_s:g}s/{step_s:g}s")
+    return Sliding(length_s, step_s)
 
 
 def analyze(recording: Any, windows: Any, *, clean: Any) -> Any:
     """``rrkit.analyze`` with every metric domain and Welch spectra."""
-    import rrkit
+    from rrkit.analysis import analyze as _analyze  # exported as rrkit.analyze
 
-    return rrkit.analyze(recording, windows=windows, clean=clean, psd="welch")
+    return _analyze(recording, windows=windows, clean=clean, psd="welch")
 
 
 def metric_rows(table: Any) -> list[dict[str, Any]]:

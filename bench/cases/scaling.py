@@ -26,10 +26,12 @@ MEMORY_MAX_MB = 400.0
 def _input(cfg, n: int):
     from rrkit.simulate import inject_artifacts, simulate_rr
 
+    from .._data import artifact_rates
+
     path = cfg.cache_dir / "scaling" / f"beats_{n}.txt"
     if not path.is_file():
         rec = simulate_rr(n, seed=n)
-        rec, _ = inject_artifacts(rec, rate=0.02, seed=n + 1)
+        rec, _ = inject_artifacts(rec, rates=artifact_rates(0.02), seed=n + 1)
         tmp = write_rr_file(path.with_suffix(".part"), rec)
         tmp.replace(path)
     return path

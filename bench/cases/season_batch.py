@@ -68,7 +68,8 @@ def read_daily_table(out_dir: Path):
 
     cands = sorted(out_dir.glob("daily*.csv")) or sorted(out_dir.rglob("daily*.csv"))
     if not cands:
-        raise RuntimeError(f"no daily*.csv in {out_dir}: {sorted(p.name for p in out_dir.iterdir())}")
+        found = sorted(p.name for p in out_dir.iterdir())
+        raise RuntimeError(f"no daily*.csv in {out_dir}: {found}")
     return pd.read_csv(cands[0])
 
 
@@ -117,7 +118,6 @@ def run(cfg) -> CaseResult:
     idx = make_season(root, n_subjects=n_subj, n_days=n_days, seconds=360.0,
                       artifact_rate=0.01, seed=5)
     gen_s = time.perf_counter() - t_gen
-    files = idx["files"]
     man = _manifest(idx["manifest"])
     n_files = len(man)
     res.params = {"subjects": n_subj, "days": n_days, "files": n_files, "file_s": 360,
