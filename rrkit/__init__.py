@@ -8,6 +8,7 @@ rrkit is not a medical device and makes no diagnosis.
 """
 
 from ._version import __version__
+from .analysis import analyze
 from .agreement import (
     AgreementResult,
     DefinitionSearch,
@@ -48,6 +49,7 @@ __all__ = [
     "Window",
     "__version__",
     "agreement",
+    "analyze",
     "reference_table",
     "search_definitions",
     "clean",

@@ -117,16 +117,21 @@ def test_sampen_dense_equals_tree_and_loop(rng):
                 b += 1
                 if d[m] <= r:
                     a += 1
-    dense = sample_entropy([x], m=m, r=r, dense=True)
-    tree = sample_entropy([x], m=m, r=r, dense=False)
-    assert dense[1:] == (a, b) == tree[1:]
+    dense = sample_entropy([x], m=m, r=r, method="dense")
+    tree = sample_entropy([x], m=m, r=r, method="tree")
+    fast = sample_entropy([x], m=m, r=r, method="sorted")
+    assert dense[1:] == (a, b) == tree[1:] == fast[1:]
     assert dense[0] == pytest.approx(-math.log(a / b), rel=1e-12)
     # templates never span a gap: two runs give the same counts as the loop over each run
     # pooled with cross-run template pairs
     parts = [x[:50], x[50:]]
-    d2 = sample_entropy(parts, m=m, r=r, dense=True)
-    t2 = sample_entropy(parts, m=m, r=r, dense=False)
-    assert d2 == t2
+    d2 = sample_entropy(parts, m=m, r=r, method="dense")
+    t2 = sample_entropy(parts, m=m, r=r, method="tree")
+    s2 = sample_entropy(parts, m=m, r=r, method="sorted")
+    assert d2 == t2 == s2
+    for mm in (1, 3):  # other template lengths agree too
+        assert (sample_entropy([x], m=mm, r=r, method="sorted")
+                == sample_entropy([x], m=mm, r=r, method="dense"))
 
 
 def test_sampen_white_noise_limit(rng):

@@ -130,7 +130,8 @@ def _run_bounds(gaps: np.ndarray) -> list[tuple[int, int]]:
     return [(int(a), int(b)) for a, b in zip(edges[::2], edges[1::2], strict=True)]
 
 
-def _settings(settings, domains, psd, bands) -> MetricsSettings:
+def merge_settings(settings, domains, psd, bands) -> MetricsSettings:
+    """``settings`` (default `MetricsSettings()`) with ``domains``, ``psd``, ``bands`` applied."""
     if settings is None:
         settings = MetricsSettings()
     elif not isinstance(settings, MetricsSettings):
@@ -195,7 +196,7 @@ def metrics(
     (59.2814, 38.8909)
     """
     rec, clean_settings = _as_recording(data)
-    s = _settings(settings, domains, psd, bands)
+    s = merge_settings(settings, domains, psd, bands)
     if breathing_hz is not None:
         breathing_hz = check_range("breathing_hz", breathing_hz, low=0.0, low_inclusive=False,
                                    unit="Hz")
@@ -259,7 +260,7 @@ def spectrum(
     0.1
     """
     rec, _ = _as_recording(data)
-    s = _settings(settings, None, psd, bands)
+    s = merge_settings(settings, None, psd, bands)
     bounds = _run_bounds(rec.gaps)
     t_end = rec.interval_times_s
     runs = [(t_end[a:b], rec.rr_ms[a:b]) for a, b in bounds]

@@ -153,9 +153,9 @@ def dfa_alphas(segments: list[np.ndarray], ranges, *, min_boxes: int = 1) -> lis
     return out
 
 
-#: Up to this many NN intervals, SampEn counts matches from one dense boolean matrix; above it,
-#: from k-d trees (memory stays O(N)).
-DENSE_SAMPEN_MAX = 2500
+#: Up to this many NN intervals SampEn counts matches from the sorted candidate pairs; above it,
+#: from k-d trees (memory stays O(N) however many pairs match on the first point).
+SORTED_SAMPEN_MAX = 5000
 
 
 def _template_starts(lengths: list[int], m: int) -> np.ndarray:
@@ -168,8 +168,33 @@ def _template_starts(lengths: list[int], m: int) -> np.ndarray:
     return np.concatenate(starts) if starts else np.zeros(0, np.int64)
 
 
+def _count_sorted(x: np.ndarray, starts: np.ndarray, m: int, r: float) -> tuple[int, int]:
+    """Template pairs within ``r`` at lengths ``m`` and ``m + 1`` (see `sample_entropy`)."""
+    first = x[starts]
+    order = np.argsort(first, kind="stable")
+    xs = first[order]
+    # candidates: pairs whose first points are within r (found on the sorted first points with a
+    # hair of slack, then checked exactly on the original values)
+    hi = np.searchsorted(xs, xs + r * (1 + 1e-12) + 1e-300, side="right")
+    counts = hi - np.arange(xs.size) - 1
+    total = int(counts.sum())
+    if total == 0:
+        return 0, 0
+    pi = np.repeat(np.arange(xs.size), counts)
+    pj = pi + 1 + (np.arange(total) - np.repeat(np.cumsum(counts) - counts, counts))
+    ia = starts[order[pi]]
+    ib = starts[order[pj]]
+    ok = np.abs(x[ia] - x[ib]) <= r
+    for k in range(1, m):
+        ok &= np.abs(x[ia + k] - x[ib + k]) <= r
+    b = int(np.count_nonzero(ok))
+    ia, ib = ia[ok], ib[ok]
+    a = int(np.count_nonzero(np.abs(x[ia + m] - x[ib + m]) <= r))
+    return a, b
+
+
 def sample_entropy(segments: list[np.ndarray], *, m: int = 2, r: float,
-                   dense: bool | None = None) -> tuple[float, int, int]:
+                   method: str | None = None) -> tuple[float, int, int]:
     """Sample entropy ``-ln(A / B)`` (Richman & Moorman 2000).
 
     Parameters
@@ -180,9 +205,9 @@ def sample_entropy(segments: list[np.ndarray], *, m: int = 2, r: float,
         Template length.
     r : float
         Tolerance in ms (absolute; rrkit passes 0.2 SD).
-    dense : bool, optional
-        Force the dense-matrix (True) or k-d tree (False) count; by default dense up to
-        `DENSE_SAMPEN_MAX` intervals.
+    method : {"sorted", "dense", "tree"}, optional
+        How matches are counted (the same numbers every way); by default ``"sorted"`` up to
+        `SORTED_SAMPEN_MAX` intervals, else ``"tree"``.
 
     Returns
     -------
@@ -195,7 +220,9 @@ def sample_entropy(segments: list[np.ndarray], *, m: int = 2, r: float,
 
     Notes
     -----
-    Dense count: one boolean matrix ``C[i, j] = |x_i - x_j| <= r``; templates ``i`` and ``j``
+    Sorted count: templates are sorted by their first point; candidate pairs are those whose
+    first points differ by at most ``r`` (a sliding bound on the sorted values), and only those
+    are compared on the other points, O(N log N + candidates). Dense count: one boolean matrix ``C[i, j] = |x_i - x_j| <= r``; templates ``i`` and ``j``
     match at length ``m`` when ``C[i + k, j + k]`` holds for ``k < m``, so every length comes from
     shifted blocks of the same matrix. Tree count: `scipy.spatial.cKDTree.count_neighbors` with
     the maximum norm (``p=inf``) counts ordered pairs and self-pairs, so
@@ -209,9 +236,11 @@ def sample_entropy(segments: list[np.ndarray], *, m: int = 2, r: float,
     nt = starts.size
     if nt < 2:
         return _NAN, 0, 0
-    if dense is None:
-        dense = x.size <= DENSE_SAMPEN_MAX
-    if dense:
+    if method is None:
+        method = "sorted" if x.size <= SORTED_SAMPEN_MAX else "tree"
+    if method == "sorted":
+        a, b = _count_sorted(x, starts, m, r)
+    elif method == "dense":
         close = np.abs(x[:, None] - x[None, :]) <= r
         if len(segs) == 1:
             blocks = [close[k:k + nt, k:k + nt] for k in range(m + 1)]

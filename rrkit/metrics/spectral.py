@@ -334,9 +334,9 @@ def frequency_domain(runs: list[tuple[np.ndarray, np.ndarray]], s: MetricsSettin
     if length >= s.min_vlf_s:
         out["vlf_ms2"] = band_power(est, b.vlf)
     else:
-        notes.append(f"vlf_ms2: NaN, the longest NN run lasts {length:.1f} s; rrkit assesses VLF "
-                     f"from {s.min_vlf_s:g} s (the Task Force 1996 advises against VLF from "
-                     f"recordings of 5 min or less)")
+        notes.append(f"vlf_ms2: NaN, rrkit assesses VLF from NN runs of {s.min_vlf_s:g} s or "
+                     f"more (the Task Force 1996 advises against VLF from recordings of 5 min "
+                     f"or less)")
     if hf == 0:
         notes.append("ln_hf, lf_hf: NaN, no power in the HF band")
     out["resp_hz"] = out["hf_peak_hz"]

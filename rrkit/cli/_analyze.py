@@ -1,0 +1,241 @@
+"""``rrkit analyze``: HRV metrics per analysis window, for one or more files.
+
+Console example::
+
+    $ rrkit analyze morning.txt                               # morning: skip 60 s, analyse 300 s
+    $ rrkit analyze night.csv --window slide:5m --format csv -o night_windows.csv
+    $ rrkit analyze night.csv --window "clock:04:00-07:00@Europe/Paris,stable=5m"
+    $ rrkit analyze lab.txt --window events:protocol.csv --psd ar --format json
+
+Exit codes: 0 every file analysed; 1 some files failed (each named on stderr, the others
+written); 2 a usage error or no file could be analysed.
+"""
+
+from __future__ import annotations
+
+import json
+import math
+import sys
+from pathlib import Path
+
+import click
+
+from ..analysis import NOTE_SEPARATOR
+from ..errors import InputError
+from ..windows import SYNTAX_HELP
+
+CAUTION = ("rrkit is not a medical device and makes no diagnosis. Frequent premature beats are "
+           "worth showing to a clinician; decisions rest with clinicians and qualified staff.")
+
+_MAX_NOTE_LINES = 20
+
+#: Columns shown by the readable table (all columns go to csv and json).
+TABLE_COLUMNS = (
+    "source", "window", "start", "dur_s", "quality", "artifact_pct", "mean_hr_bpm",
+    "rmssd_ms", "ln_rmssd", "sdnn_ms", "pnn50_pct", "lf_ms2", "hf_ms2", "lf_hf", "sd1_ms",
+    "dfa_alpha1", "sampen",
+)
+
+
+def _parse_bands(items: tuple[str, ...]) -> dict[str, tuple[float, float]] | None:
+    if not items:
+        return None
+    out = {}
+    for item in items:
+        name, eq, span = item.partition("=")
+        lo, dash, hi = span.partition("-")
+        try:
+            if not eq or not dash:
+                raise ValueError
+            out[name.strip().lower()] = (float(lo), float(hi))
+        except ValueError:
+            raise InputError(f"--band must read NAME=LO-HI in Hz (NAME vlf, lf or hf); got "
+                             f"{item!r}", hint="for example --band hf=0.15-1.0") from None
+    return out
+
+
+@click.command(name="analyze", context_settings={"max_content_width": 100})
+@click.argument("files", nargs=-1, required=True,
+                type=click.Path(exists=True, dir_okay=False, path_type=Path))
+@click.option("--window", "-w", "window", default="morning", show_default=True,
+              help="Analysis window(s), see the syntax above: " + SYNTAX_HELP + ".")
+@click.option("--clean", "clean_method", type=click.Choice(["drr", "median", "mad", "none"]),
+              default="drr", show_default=True,
+              help="Artifact correction before the metrics (drr: Lipponen & Tarvainen 2019; "
+                   "none: the intervals as read, quality 'unchecked').")
+@click.option("--psd", type=click.Choice(["welch", "lomb", "ar"]), default="welch",
+              show_default=True,
+              help="Spectrum: welch (4 Hz spline, smoothness-priors detrending, Hann, 150-s "
+                   "segments, 50% overlap), lomb (Lomb-Scargle) or ar (Burg, order 16).")
+@click.option("--band", "bands", multiple=True, metavar="NAME=LO-HI",
+              help="Change a frequency band in Hz (repeatable), e.g. --band hf=0.15-1.0 for "
+                   "exercise. Default Task Force 1996: vlf 0.0033-0.04, lf 0.04-0.15, "
+                   "hf 0.15-0.40.")
+@click.option("--format", "fmt", type=click.Choice(["table", "csv", "json"]), default=None,
+              help="Output format (default: from the -o extension, else table).")
+@click.option("-o", "--output", type=click.Path(dir_okay=False, path_type=Path),
+              help="Write to this file instead of the terminal.")
+@click.option("--kind", type=click.Choice(["auto", "rr", "peaks", "ecg", "annotations"]),
+              default="auto", show_default=True, help="What the files hold (see rrkit info).")
+@click.option("--unit", type=click.Choice(["auto", "ms", "s", "samples"]), default="auto",
+              show_default=True, help="Unit of the values in the files.")
+@click.option("--fs", type=float, default=None, help="Sampling rate in Hz (samples, ECG).")
+@click.option("--progress/--no-progress", default=None,
+              help="Progress bar (default: on a terminal).")
+def command(files, window, clean_method, psd, bands, fmt, output, kind, unit, fs,
+            progress) -> int:
+    """HRV metrics of each analysis window of FILE... (time, frequency, nonlinear domains).
+
+    Reads each file (rrkit info shows how), corrects artifacts over the whole recording, then
+    for every window reports the cleaning audit of that window (artifact_pct, corrected_pct,
+    quality) and every metric: mean_rr_ms ... rmssd_ms, ln_rmssd, sdnn_ms, pnn50_pct,
+    vlf/lf/hf_ms2, lf_hf, sd1_ms, sd2_ms, dfa_alpha1/2, sampen, resp_hz. Values that cannot
+    be computed (too short a window) are empty, with the reason in notes.
+
+    \b
+    Window syntax (--window, several joined with ';'):
+      morning                      skip 60 s, analyse the next 300 s (the default)
+      whole                        first to last beat
+      start:60+300                 300 s starting 60 s after the first beat
+      last:5m                      the last 5 minutes
+      slide:5m  slide:5m/1m        5-min windows every 5 min (every 1 min)
+      clock:04:00-07:00@Europe/Paris,stable=5m
+                                   that wall-clock window each day (its most stable
+                                   5 min: fewest corrected beats, then least HR drift)
+      events:protocol.csv          rows label,start_s,end_s[,breaths_per_min]
+
+    rrkit is not a medical device and makes no diagnosis.
+    """
+    import pandas as pd
+
+    from ..analysis import analyze
+    from ..io import read
+    from ..windows import parse_window
+
+    spec = parse_window(window)
+    band_map = _parse_bands(bands)
+    if fmt is None:
+        suffix = output.suffix.lower() if output is not None else ""
+        fmt = {".csv": "csv", ".json": "json"}.get(suffix, "table")
+    if progress is None:
+        progress = sys.stderr.isatty()
+    tables, failed = [], 0
+    for path in _iter_files(files, progress):
+        try:
+            rec = read(path, kind=kind, unit=unit, fs=fs)
+            tables.append(analyze(rec, windows=spec, clean=None if clean_method == "none"
+                                  else clean_method, psd=psd, bands=band_map,
+                                  progress=progress and len(files) == 1))
+        except InputError as exc:
+            failed += 1
+            click.echo(f"rrkit: error: {' '.join(str(exc).split())}", err=True)
+    if not tables:
+        return 2
+    df = pd.concat(tables, ignore_index=True) if len(tables) > 1 else tables[0]
+    text = _render(df, fmt)
+    if output is not None:
+        output.write_text(text, encoding="utf-8")
+        click.echo(f"{len(df)} windows from {len(tables)} file(s) -> {output}", err=True)
+    else:
+        click.echo(text, nl=not text.endswith("\n"))
+    if df["notes"].str.contains("caution:", regex=False).any():
+        # after a table on the terminal; on stderr when stdout carries csv or json
+        click.echo(CAUTION, err=not (fmt == "table" and output is None))
+    return 1 if failed else 0
+
+
+def _iter_files(files, progress):
+    if progress and len(files) > 1:
+        from tqdm.auto import tqdm
+
+        return tqdm(files, desc="analyze", unit="file", leave=False)
+    return files
+
+
+def _render(df, fmt: str) -> str:
+    if fmt == "csv":
+        return df.to_csv(index=False)
+    if fmt == "json":
+        return json.dumps(_records(df), indent=2, allow_nan=False) + "\n"
+    return _table(df)
+
+
+def _clean_value(v):
+    if v is None:
+        return None
+    if hasattr(v, "isoformat"):
+        try:
+            import pandas as pd
+
+            if pd.isna(v):
+                return None
+        except (TypeError, ValueError):
+            pass
+        return v.isoformat()
+    if isinstance(v, float) and not math.isfinite(v):
+        return None
+    if hasattr(v, "item"):  # numpy scalars
+        v = v.item()
+        if isinstance(v, float) and not math.isfinite(v):
+            return None
+    return v
+
+
+def _records(df) -> list[dict]:
+    out = []
+    for row in df.to_dict("records"):
+        rec = {k: _clean_value(v) for k, v in row.items()}
+        rec["notes"] = [n for n in (row["notes"] or "").split(NOTE_SEPARATOR) if n]
+        out.append(rec)
+    return out
+
+
+def _table(df) -> str:
+    import pandas as pd
+
+    view = pd.DataFrame({
+        "source": [Path(s).name if isinstance(s, str) else "" for s in df["source"]],
+        "window": df["window"],
+        "start": [_start(t, s) for t, s in zip(df["start_time"], df["start_s"], strict=True)],
+        "dur_s": df["end_s"] - df["start_s"],
+    })
+    for col in TABLE_COLUMNS[4:]:
+        if col in df.columns:
+            view[col] = df[col]
+    formats = {"dur_s": "{:.0f}", "artifact_pct": "{:.1f}", "mean_hr_bpm": "{:.1f}",
+               "rmssd_ms": "{:.1f}", "ln_rmssd": "{:.2f}", "sdnn_ms": "{:.1f}",
+               "pnn50_pct": "{:.1f}", "lf_ms2": "{:.0f}", "hf_ms2": "{:.0f}", "lf_hf": "{:.2f}",
+               "sd1_ms": "{:.1f}", "dfa_alpha1": "{:.2f}", "sampen": "{:.2f}"}
+    for col, f in formats.items():
+        if col in view.columns:
+            view[col] = [("-" if not isinstance(v, (int, float)) or not math.isfinite(v)
+                          else f.format(v)) for v in view[col]]
+    lines = [view.to_string(index=False)]
+    by_text: dict[str, list[str]] = {}
+    several = len(set(view["source"])) > 1
+    for src, w, n in zip(view["source"], df["window"], df["notes"], strict=True):
+        for part in (n or "").split(NOTE_SEPARATOR):
+            if part:
+                by_text.setdefault(part, []).append(f"{src} {w}" if several else str(w))
+    if by_text:
+        lines.append("")
+        lines.append("notes (- marks a value that could not be computed):")
+        items = list(by_text.items())
+        for text, wins in items[:_MAX_NOTE_LINES]:
+            where = wins[0] if len(wins) == 1 else (
+                "all windows" if len(wins) == len(df) else f"{len(wins)} windows")
+            lines.append(f"  {where}: {text}")
+        if len(items) > _MAX_NOTE_LINES:
+            lines.append(f"  ... {len(items) - _MAX_NOTE_LINES} more (see --format csv or json)")
+    return "\n".join(lines) + "\n"
+
+
+def _start(t, s) -> str:
+    try:
+        import pandas as pd
+
+        if t is not None and not pd.isna(t):
+            return pd.Timestamp(t).strftime("%Y-%m-%d %H:%M:%S")
+    except (TypeError, ValueError):
+        pass
+    return "-" if s is None or not math.isfinite(float(s)) else f"{float(s):.0f} s"
