@@ -177,26 +177,27 @@ def _nights(folder: Path, out: Path, *, tz: str):
 
 
 def _ectopy_by_subject(store_path: Path) -> dict[str, dict]:
-    """Premature beats per hour of recording, per subject, from the store's cleaning audits."""
-    import h5py
+    """Premature beats per hour, per subject, from the cleaning audits in the batch's store.
 
+    ``per_hour`` is the mean over the subject's recordings of the audit's premature beats per
+    hour (the mornings all last about 6 minutes); ``n_caution`` counts the recordings whose
+    audit carries the frequent-premature-beats caution.
+    """
+    from ..io.store import read_store_index
+
+    index = read_store_index(store_path)
     per: dict[str, dict] = {}
-    with h5py.File(store_path, "r") as h5:
-        for sg in h5["recordings"].values():
-            for g in sg.values():
-                summ = json.loads(g.attrs["clean_summary"])
-                t = g["raw/beat_times_s"]
-                hours = float(t[-1] - t[0]) / 3600.0 if t.shape[0] > 1 else 0.0
-                d = per.setdefault(str(g.attrs["subject"]), {"n_ectopic": 0, "hours": 0.0,
-                                                              "n_files": 0, "n_caution": 0})
-                d["n_ectopic"] += int(summ.get("n_ectopic", 0))
-                d["hours"] += hours
-                d["n_files"] += 1
-                d["n_caution"] += int(bool(summ.get("caution")))
-                if summ.get("caution"):
-                    d["caution"] = summ["caution"]
+    for row in index.itertuples(index=False):
+        summ = json.loads(row.clean_summary) if isinstance(row.clean_summary, str) else {}
+        d = per.setdefault(str(row.subject), {"rates": [], "n_files": 0, "n_caution": 0})
+        d["rates"].append(float(summ.get("ectopic_per_hour", float("nan"))))
+        d["n_files"] += 1
+        if summ.get("caution"):
+            d["n_caution"] += 1
+            d["caution"] = summ["caution"]
     for d in per.values():
-        d["per_hour"] = d["n_ectopic"] / d["hours"] if d["hours"] > 0 else float("nan")
+        rates = [r for r in d.pop("rates") if r == r]
+        d["per_hour"] = sum(rates) / len(rates) if rates else float("nan")
     return per
 
 

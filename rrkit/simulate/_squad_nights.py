@@ -26,7 +26,7 @@ TIME_ZONE = "Europe/Berlin"
 
 #: The wearable's hidden behaviour: which reference definition it resembles, its bias (ms) and
 #: the SD of its noise (ms). Kept out of the data folder on purpose.
-WEARABLE = {"definition": "last-3h", "bias": 4.0, "noise_sd": 2.0, "metric": "rmssd_ms"}
+WEARABLE = {"definition": "lowest-hr-30min", "bias": 5.0, "noise_sd": 1.5, "metric": "rmssd_ms"}
 
 _P_NIGHT, _P_WEAR = 8, 9
 
