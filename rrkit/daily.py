@@ -203,8 +203,7 @@ class DailySettings:
         """The settings that change a single file's result (hashed for resume)."""
         return {
             "rrkit_version": __version__,
-            "window": "MORNING" if self.window is None else
-            (self.window if isinstance(self.window, str) else repr(self.window)),
+            "window": repr(self.window_spec()),
             "clean": self.clean, "strategy": self.strategy,
             "clean_settings": _plain(self.clean_settings),
             "psd": self.psd, "kind": self.kind, "unit": self.unit,
@@ -442,107 +441,111 @@ def select_days(
     import pandas as pd
 
     s = settings or DailySettings()
-    df = per_recording.copy()
+    df = per_recording
     for col in ("subject", "start"):
         if col not in df.columns:
             raise InputError(f"the per-recording table needs a {col!r} column; got "
                              f"{list(df.columns)!r}")
-    if "source" not in df.columns:
-        df["source"] = [f"row {i}" for i in range(len(df))]
-    if "failed" not in df.columns:
-        df["failed"] = False
-    df["failed"] = df["failed"].fillna(False).astype(bool)
-    if "quality" not in df.columns:
-        df["quality"] = "ok"
-    starts = [_local_start(v, s.tz, src) for v, src in zip(df["start"], df["source"], strict=True)]
-    df["_date"] = [d for d, _ in starts]
-    df["_clock"] = [c for _, c in starts]
-    df["start_time"] = [_start_stamp(v, s.tz, c) for v, c in zip(df["start"], df["_clock"],
-                                                                 strict=True)]
-    df["subject"] = df["subject"].astype(str)
+    extra_cols = [str(c) for c in df.columns if c not in _KNOWN_INPUT]
+    records = df.to_dict("records")
     wake0, wake1 = _clock("wake_start", s.wake_start), _clock("wake_end", s.wake_end)
-    extra_cols = [c for c in df.columns if c not in _KNOWN_INPUT and not c.startswith("_")]
-
-    if len(df):
-        lo = min(df["_date"]) if first_date is None else _as_date("first_date", first_date)
-        hi = max(df["_date"]) if last_date is None else _as_date("last_date", last_date)
+    groups: dict[tuple[str, dt.date], list[dict]] = {}
+    for i, r in enumerate(records):
+        src = r.get("source")
+        r["source"] = f"row {i}" if _isna(src) else src
+        r["failed"] = _truthy(r.get("failed"))
+        if _isna(r.get("quality")):
+            r["quality"] = "ok"
+        day, clock = _local_start(r["start"], s.tz, r["source"])
+        r["_clock"] = clock
+        r["start_time"] = None if clock is None else _start_stamp(r["start"], s.tz)
+        r["subject"] = str(r["subject"])
+        groups.setdefault((r["subject"], day), []).append(r)
+    if groups:
+        lo = (min(d for _, d in groups) if first_date is None
+              else _as_date("first_date", first_date))
+        hi = (max(d for _, d in groups) if last_date is None
+              else _as_date("last_date", last_date))
+        n_days = (hi - lo).days + 1
     else:
-        lo = hi = None
-    subjects = sorted(df["subject"].unique())
-    groups = {key: g for key, g in df.groupby(["subject", "_date"], sort=False)}
+        lo, n_days = None, 0
+    subjects = sorted({subj for subj, _ in groups})
     out_rows = []
-    n_days = 0 if lo is None else (hi - lo).days + 1
     for subj in subjects:
         for k in range(n_days):
             day = lo + dt.timedelta(days=k)
-            g = groups.get((subj, day))
-            out_rows.append(_pick(subj, day, g, s, wake0, wake1, extra_cols))
+            out_rows.append(_pick(subj, day, groups.get((subj, day)), s, wake0, wake1,
+                                  extra_cols))
     cols = (["subject", "date", "source", "start_time", "window", "n_beats", "artifact_pct",
              "corrected_pct", "quality", "quality_reason", *DAILY_METRICS, "n_recordings"]
             + extra_cols)
     table = pd.DataFrame(out_rows, columns=cols)
-    if len(table):
-        table["n_beats"] = table["n_beats"].astype("Int64")
-        table["n_recordings"] = table["n_recordings"].astype("int64")
+    table["n_beats"] = pd.array([None if _isna(v) else int(v) for v in table["n_beats"]],
+                                dtype="Int64")
+    table["n_recordings"] = table["n_recordings"].astype("int64")
     for k in ("artifact_pct", "corrected_pct", *DAILY_METRICS):
-        table[k] = table[k].astype("float64")
+        table[k] = pd.to_numeric(table[k]).astype("float64")
     return table
 
 
 _KNOWN_INPUT = {"subject", "start", "source", "window", "n_beats", "artifact_pct",
                 "corrected_pct", "quality", "quality_reason", "marked", "failed", "notes",
-                "start_s", "end_s", "start_time", "error", "date", *DAILY_METRICS}
+                "start_s", "end_s", "start_time", "error", "date", "n_recordings",
+                *DAILY_METRICS}
+_COPY = ("source", "start_time", "window", "n_beats", "artifact_pct", "corrected_pct",
+         "quality", "quality_reason", *DAILY_METRICS)
 
 
-def _pick(subj, day, g, s: DailySettings, wake0, wake1, extra_cols):
+def _isna(v) -> bool:
+    if v is None:
+        return True
+    try:
+        return bool(v != v)  # NaN, pandas.NA raise or give NA
+    except TypeError:
+        return True
+
+
+def _pick(subj, day, group, s: DailySettings, wake0, wake1, extra_cols):
     base: dict[str, Any] = {"subject": subj, "date": day, "source": None, "start_time": None,
-                            "window": None, "n_beats": pd_na(), "artifact_pct": np.nan,
+                            "window": None, "n_beats": None, "artifact_pct": np.nan,
                             "corrected_pct": np.nan, "quality": "missing",
                             "quality_reason": "no recording", "n_recordings": 0}
     base.update({k: np.nan for k in DAILY_METRICS})
     base.update({c: None for c in extra_cols})
-    if g is None or not len(g):
+    if not group:
         return base
-    base["n_recordings"] = len(g)
+    base["n_recordings"] = len(group)
     if s.pick == "marked":
-        marked = g["marked"] if "marked" in g.columns else None
-        cand = g[[_truthy(v) for v in marked]] if marked is not None else g.iloc[:0]
-        if not len(cand):
-            base["quality_reason"] = f"no recording marked as the morning one ({len(g)} that day)"
+        cand = [r for r in group if _truthy(r.get("marked"))]
+        if not cand:
+            base["quality_reason"] = (f"no recording marked as the morning one ({len(group)} "
+                                      "that day)")
             return base
     else:
-        inside = [c is None or (wake0 <= c < wake1) for c in g["_clock"]]
-        cand = g[inside]
-        if not len(cand):
+        cand = [r for r in group if r["_clock"] is None or wake0 <= r["_clock"] < wake1]
+        if not cand:
             base["quality_reason"] = (f"no recording starts between {s.wake_start} and "
-                                      f"{s.wake_end} ({len(g)} outside)")
+                                      f"{s.wake_end} ({len(group)} outside)")
             return base
-    rank = [2 if f else (1 if q == "rejected" else 0)
-            for f, q in zip(cand["failed"], cand["quality"], strict=True)]
-    order = sorted(range(len(cand)), key=lambda i: (
-        rank[i], cand["_clock"].iloc[i] is None, cand["_clock"].iloc[i] or dt.time(0),
-        str(cand["source"].iloc[i])))
-    row = cand.iloc[order[0]]
-    if rank[order[0]] == 2:
+
+    def rank(r) -> tuple:
+        usable = 2 if r["failed"] else (1 if r["quality"] == "rejected" else 0)
+        clock = r["_clock"]
+        return (usable, clock is None, clock or dt.time(0), str(r["source"]))
+
+    best = min(cand, key=rank)
+    if best["failed"]:
         n = len(cand)
         base["quality_reason"] = (f"the day's recording could not be used ({n} file"
                                   f"{'s' if n > 1 else ''} failed, see errors.csv)")
-        base["source"] = str(row["source"])
+        base["source"] = str(best["source"])
         return base
-    for k in ("source", "start_time", "window", "n_beats", "artifact_pct", "corrected_pct",
-              "quality", "quality_reason", *DAILY_METRICS, *extra_cols):
-        if k in row.index:
-            v = row[k]
-            base[k] = v
-    base["quality_reason"] = "" if base.get("quality_reason") is None or (
-        isinstance(base["quality_reason"], float)) else str(base["quality_reason"])
+    for k in (*_COPY, *extra_cols):
+        if k in best:
+            base[k] = best[k]
+    reason = base.get("quality_reason")
+    base["quality_reason"] = "" if _isna(reason) else str(reason)
     return base
-
-
-def pd_na():
-    import pandas as pd
-
-    return pd.NA
 
 
 def _truthy(v) -> bool:
@@ -586,11 +589,9 @@ def _local_start(v, tz: str, source) -> tuple[dt.date, dt.time | None]:
     return local.date(), local.time().replace(tzinfo=None)
 
 
-def _start_stamp(v, tz, clock):
+def _start_stamp(v, tz):
     import pandas as pd
 
-    if clock is None:
-        return None
     if isinstance(v, str):
         v = dt.datetime.fromisoformat(v.strip())
     if isinstance(v, pd.Timestamp):

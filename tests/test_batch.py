@@ -232,7 +232,7 @@ def test_damaged_cache_entry_is_recomputed(tmp_path):
     _squad_folder(data, subjects=("A01",), n_days=3)
     out = tmp_path / "out"
     first = run_daily(data, out, executor=InlineExecutor())
-    entry = sorted((out / ".rrkit-cache").glob("*.npz"))[0]
+    entry = sorted((out / ".rrkit-cache").glob("*.rrc"))[0]
     entry.write_bytes(entry.read_bytes()[:100])
     again = run_daily(data, out, executor=InlineExecutor())
     assert (again.n_done, again.n_skipped) == (1, 2)
@@ -252,14 +252,14 @@ def test_killed_run_then_rerun_gives_same_table(tmp_path):
     deadline = time.monotonic() + 60
     try:
         while time.monotonic() < deadline and proc.poll() is None:
-            if cache.is_dir() and len(list(cache.glob("*.npz"))) >= 10:
+            if cache.is_dir() and len(list(cache.glob("*.rrc"))) >= 10:
                 break
             time.sleep(0.01)
         assert proc.poll() is None, "the run ended before it could be interrupted"
         os.killpg(proc.pid, signal.SIGKILL)  # the run and its worker process, by group id
     finally:
         proc.wait(timeout=30)
-    n_cached = len(list(cache.glob("*.npz")))
+    n_cached = len(list(cache.glob("*.rrc")))
     assert 10 <= n_cached < 120
     assert not (out / "daily.csv").exists()  # killed before the end: no output at all
     rerun = subprocess.run(cmd, capture_output=True, text=True, timeout=300)

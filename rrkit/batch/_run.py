@@ -23,7 +23,7 @@ from ._discover import Candidate, assign, discover, sha256_file
 from ._executor import Executor, LocalExecutor
 from ._pattern import FilenamePattern
 from ._safe import neutralize_cells
-from ._work import CACHE_DIR, ResultCache, broken_result, process_file, settings_hash
+from ._work import CACHE_DIR, ResultCache, broken_result, process_and_cache, settings_hash
 
 __all__ = ["RunSummary", "run_daily", "OUTPUT_NAMES"]
 
@@ -219,7 +219,7 @@ def run_daily(
                            "start": start_iso, "date": _date_of(start).isoformat(),
                            "read_info": res.get("read_info"),
                            "clean_summary": res.get("clean_summary"),
-                           "settings": s.to_dict(), "rows": res["rows"],
+                           "rows": res["rows"],
                            "arrays": res["arrays"], "warnings": res.get("warnings", [])})
 
     per_rec_df = pd.DataFrame(per_rec)
@@ -255,7 +255,8 @@ def run_daily(
 
 
 def _compute(todo, results, status, cache, s, jobs, executor, progress) -> int:
-    fn = functools.partial(process_file, settings=s)
+    fn = functools.partial(process_and_cache, settings=s, cache_folder=str(cache.folder),
+                           digest=cache.digest)
     own = executor is None
     ex = executor if executor is not None else LocalExecutor(jobs, preload=_PRELOAD,
                                                              on_broken=broken_result)
@@ -271,7 +272,6 @@ def _compute(todo, results, status, cache, s, jobs, executor, progress) -> int:
     n = 0
     try:
         for res in ex.imap_unordered(fn, todo, chunksize=chunksize):
-            cache.store(res)
             results[res["relpath"]] = res
             status[res["relpath"]] = "done" if res.get("ok") else "failed"
             n += 1

@@ -26,13 +26,14 @@ import numpy as np
 from ..daily import DailySettings, _plain, measure_recording
 from ._atomic import atomic_path
 
-__all__ = ["process_file", "settings_hash", "ResultCache", "ARRAY_NAMES"]
+__all__ = ["process_file", "process_and_cache", "settings_hash", "ResultCache", "ARRAY_NAMES"]
 
 #: Arrays a successful result carries (for the HDF5 store).
 ARRAY_NAMES = ("raw_beat_times_s", "raw_rr_ms", "raw_gaps", "labels", "changed",
                "corrected_beat_times_s", "corrected_rr_ms", "corrected_gaps", "origin")
 CACHE_DIR = ".rrkit-cache"
 _CACHE_FORMAT = 1
+_MAGIC = b"RRKITC01"
 
 
 def settings_hash(settings: DailySettings) -> str:
@@ -98,6 +99,63 @@ def process_file(task: tuple[str, str, str], *, settings: DailySettings) -> dict
     return out
 
 
+def process_and_cache(task: tuple[str, str, str], *, settings: DailySettings, cache_folder: str,
+                      digest: str) -> dict[str, Any]:
+    """`process_file`, then store the result in the resume cache (in the worker, in parallel).
+
+    A failure to write the cache entry is not fatal: the result is still returned (and the
+    file is simply recomputed next time).
+    """
+    result = process_file(task, settings=settings)
+    with contextlib.suppress(OSError):
+        write_entry(Path(cache_folder), digest, result)
+    return result
+
+
+def write_entry(folder: Path, digest: str, result: dict[str, Any]) -> None:
+    """Write one cache entry atomically (see `ResultCache` for the format)."""
+    arrays = result.get("arrays") if result.get("ok") else None
+    specs, blobs, at = [], [], 0
+    for name, arr in (arrays or {}).items():
+        a = np.ascontiguousarray(arr)
+        if a.dtype.kind not in "biufU":
+            raise TypeError(f"cache: array {name!r} has dtype {a.dtype}, not a plain one")
+        specs.append({"name": name, "dtype": a.dtype.str, "shape": list(a.shape),
+                      "offset": at, "nbytes": a.nbytes})
+        blobs.append(a.tobytes())
+        at += a.nbytes
+    meta = {"format": _CACHE_FORMAT, "settings": digest, "sha256": result["sha256"],
+            "result": {k: v for k, v in result.items() if k != "arrays"}, "arrays": specs}
+    head = json.dumps(meta).encode("utf-8")
+    data = b"".join([_MAGIC, len(head).to_bytes(8, "little"), head, *blobs])
+    with atomic_path(entry_path(folder, digest, result["sha256"]), fsync=False) as tmp:
+        tmp.write_bytes(data)
+
+
+def _read_entry(path: Path) -> dict[str, Any]:
+    data = path.read_bytes()
+    if not data.startswith(_MAGIC):
+        raise ValueError("not an rrkit cache entry")
+    n = int.from_bytes(data[len(_MAGIC):len(_MAGIC) + 8], "little")
+    start = len(_MAGIC) + 8
+    meta = json.loads(data[start:start + n].decode("utf-8"))
+    body = memoryview(data)[start + n:]
+    arrays = {}
+    for spec in meta["arrays"]:
+        chunk = body[spec["offset"]:spec["offset"] + spec["nbytes"]]
+        if len(chunk) != spec["nbytes"]:
+            raise ValueError("truncated cache entry")
+        arrays[spec["name"]] = np.frombuffer(chunk, dtype=np.dtype(spec["dtype"])).reshape(
+            spec["shape"]).copy()
+    meta["arrays"] = arrays
+    return meta
+
+
+def entry_path(folder: Path, digest: str, sha: str) -> Path:
+    """``<folder>/<input sha256>-<settings hash, 16 hex>.rrc`` (hex digits only)."""
+    return folder / f"{sha}-{digest[:16]}.rrc"
+
+
 def broken_result(task, exc: BaseException) -> dict[str, Any]:
     """The result for a file whose worker process died."""
     return {"relpath": task[1], "sha256": task[2], "ok": False, "error_type": "WorkerDied",
@@ -107,8 +165,10 @@ def broken_result(task, exc: BaseException) -> dict[str, Any]:
 class ResultCache:
     """Per-input results on disk, keyed by input SHA-256 and settings hash.
 
-    Each entry is one ``.npz`` file (arrays plus the JSON of the scalar fields; loaded with
-    ``allow_pickle=False``) written atomically. A missing, unreadable or foreign entry counts
+    Each entry is one ``.rrc`` file written atomically: an 8-byte tag, the length of a JSON
+    header (8 bytes, little-endian), the header (scalar fields of the result, and name, dtype,
+    shape and byte range of each array), then the raw array bytes. Nothing is unpickled, so an
+    entry cannot run code when loaded. A missing, unreadable or foreign entry counts
     as absent, so the worst a damaged cache can cause is a recomputation.
     """
 
@@ -118,21 +178,22 @@ class ResultCache:
         self.digest = settings_digest
 
     def _path(self, sha: str) -> Path:
-        return self.folder / f"{sha}-{self.digest[:16]}.npz"
+        return entry_path(self.folder, self.digest, sha)
 
     def load(self, sha: str, relpath: str) -> dict[str, Any] | None:
         p = self._path(sha)
         if not p.is_file():
             return None
         try:
-            with open(p, "rb") as fh, np.load(fh, allow_pickle=False) as z:
-                meta = json.loads(bytes(z["__meta__"]).decode("utf-8"))
-                if meta.get("format") != _CACHE_FORMAT or meta.get("settings") != self.digest \
-                        or meta.get("sha256") != sha:
+            meta = _read_entry(p)
+            if meta.get("format") != _CACHE_FORMAT or meta.get("settings") != self.digest \
+                    or meta.get("sha256") != sha:
+                return None
+            result = meta["result"]
+            if result.get("ok"):
+                if set(meta["arrays"]) != set(ARRAY_NAMES):
                     return None
-                result = meta["result"]
-                if result.get("ok"):
-                    result["arrays"] = {k: np.array(z[k]) for k in ARRAY_NAMES}
+                result["arrays"] = meta["arrays"]
         except Exception:  # a damaged entry is recomputed, never trusted
             with contextlib.suppress(OSError):
                 p.unlink()
@@ -141,12 +202,5 @@ class ResultCache:
         return result
 
     def store(self, result: dict[str, Any]) -> None:
-        scalar = {k: v for k, v in result.items() if k != "arrays"}
-        meta = {"format": _CACHE_FORMAT, "settings": self.digest, "sha256": result["sha256"],
-                "result": scalar}
-        payload = {"__meta__": np.frombuffer(json.dumps(meta).encode("utf-8"), dtype=np.uint8)}
-        if result.get("ok"):
-            payload.update(result["arrays"])
-        with atomic_path(self._path(result["sha256"]), fsync=False) as tmp:
-            with open(tmp, "wb") as fh:
-                np.savez(fh, **payload)
+        """Write the entry of one result atomically."""
+        write_entry(self.folder, self.digest, result)

@@ -1,22 +1,27 @@
 """The HDF5 store of a batch run: every recording's intervals, labels, corrections and metrics.
 
-The layout is described in ``docs/hdf5-layout.md``; in short::
+The layout (``docs/hdf5-layout.md``) is columnar: one table of recordings and, for all
+recordings together, one table of raw intervals, one of corrected intervals and one of
+windows; row ranges in the recordings table say which rows belong to which recording::
 
-    /                                   attrs: format, format_version, rrkit_version, settings
-    /recordings/<subject>/<recording>/  attrs: subject, source, sha256, start, date, ...
-        raw/beat_times_s, raw/rr_ms, raw/gaps
-        labels, changed
-        corrected/beat_times_s, corrected/rr_ms, corrected/gaps, corrected/origin
-        windows                         compound table, one row per analysis window
-    /daily/<column>                     the daily table, one dataset per column
+    /                attrs: format, format_version, rrkit_version, settings, settings_sha256
+    /recordings      one row per recording (subject, source, sha256, start, date, offsets ...)
+    /intervals       raw intervals of every recording: recording, time_s, rr_ms, gap, label,
+                     changed
+    /corrected       corrected intervals: recording, time_s, rr_ms, gap, origin
+    /windows         one row per analysis window: recording, window, quality, every metric
+    /daily/<column>  the daily table, one dataset per column
 
-Group names are made with `rrkit.batch.safe_name` (subject) and from digits and hex digests
-(recording), so no subject id or file name can reach outside its group. The original values
-are attributes. The file is written to a temporary name and renamed when complete.
+A few large datasets instead of thousands of small groups keep writing a season of files
+fast and reading it into pandas or numpy simple. No subject id or file name becomes an HDF5
+name: they are values in the tables; the only names derived from outside text (the daily
+table's extra columns) go through `rrkit.batch.safe_name`. The file is written under a
+temporary name and renamed when complete.
 """
 
 from __future__ import annotations
 
+import hashlib
 import json
 import os
 from collections.abc import Iterable, Mapping
@@ -29,11 +34,15 @@ from .._version import __version__
 from ..errors import InputError
 
 __all__ = ["STORE_FORMAT", "STORE_VERSION", "write_store", "read_store_index",
-           "read_store_recording", "read_store_daily", "recording_key"]
+           "read_store_recording", "read_store_windows", "read_store_daily", "recording_key"]
 
 STORE_FORMAT = "rrkit-store"
 STORE_VERSION = 1
 _BOOL_NA = -1
+_REC_TEXT = ("key", "subject", "source", "sha256", "start", "date", "read_info",
+             "clean_summary", "warnings")
+_REC_INT = ("interval_start", "interval_stop", "corrected_start", "corrected_stop",
+            "window_start", "window_stop")
 
 
 def _json(obj: Any) -> str:
@@ -41,9 +50,14 @@ def _json(obj: Any) -> str:
 
 
 def recording_key(start: str | None, sha256: str) -> str:
-    """Group name of one recording: ``YYYYMMDDTHHMMSS_<sha12>`` (or ``YYYYMMDD_`` / ``undated_``).
+    """Key of one recording: ``YYYYMMDDTHHMMSS_<sha12>`` (or ``YYYYMMDD_`` / ``undated_``).
 
-    Only digits, ``T``, ``_`` and hex digits, whatever the input file was called.
+    Made only of digits, ``T``, ``_`` and hex digits, whatever the input file was called.
+
+    Examples
+    --------
+    >>> recording_key("2026-03-01T07:10:00+01:00", "ab" * 32)
+    '20260301T071000_abababababab'
     """
     import datetime as dt
 
@@ -66,7 +80,7 @@ def write_store(
     daily=None,
     settings: Mapping[str, Any] | None = None,
     fsync: bool = True,
-) -> dict[str, str]:
+) -> list[str]:
     """Write the store atomically.
 
     Parameters
@@ -75,103 +89,156 @@ def write_store(
         The ``.h5`` file (replaced when complete).
     recordings : iterable of mapping
         One per recording: ``subject``, ``source``, ``sha256``, ``start`` (ISO or None),
-        ``date`` (ISO or None), ``used_in_daily`` (bool), ``read_info``, ``clean_summary``,
-        ``settings`` (mappings), ``rows`` (list of dicts, one per window) and ``arrays`` (the
-        arrays named in the layout: ``raw_beat_times_s, raw_rr_ms, raw_gaps, labels, changed,
-        corrected_beat_times_s, corrected_rr_ms, corrected_gaps, origin``).
+        ``date`` (ISO or None), ``used_in_daily`` (bool), ``read_info``, ``clean_summary``
+        (mappings), ``warnings`` (list of str), ``rows`` (list of dicts, one per window) and
+        ``arrays``: ``raw_beat_times_s, raw_rr_ms, raw_gaps, labels, changed,
+        corrected_beat_times_s, corrected_rr_ms, corrected_gaps, origin``.
     daily : pandas.DataFrame, optional
         The daily table, stored under ``/daily``.
     settings : mapping, optional
-        The run's settings (root attribute ``settings``, JSON).
+        The settings every recording was processed with (root attribute ``settings``, JSON).
     fsync : bool
         Flush to disk before the rename.
 
     Returns
     -------
-    dict
-        Source path -> HDF5 group path of each recording.
+    list of str
+        The recording keys, in the order written.
     """
     import h5py
 
     from ..batch._atomic import atomic_path
-    from ..batch._safe import safe_name
 
-    groups: dict[str, str] = {}
+    recs = list(recordings)
+    n = len(recs)
+    settings_text = _json(dict(settings or {}))
+    text = h5py.string_dtype("utf-8")
+    rec_dtype = np.dtype([*((k, text) for k in _REC_TEXT), ("used_in_daily", np.int8),
+                          ("t0_s", np.float64), ("corrected_t0_s", np.float64),
+                          *((k, np.int64) for k in _REC_INT)])
+    table = np.zeros(n, dtype=rec_dtype)
+    raw_parts, cor_parts, win_rows = [], [], []
+    keys: list[str] = []
+    seen: set[str] = set()
+    pos = {"interval": 0, "corrected": 0, "window": 0}
+    for i, rec in enumerate(recs):
+        a = rec["arrays"]
+        key = recording_key(rec.get("start") or rec.get("date"), rec["sha256"])
+        base, k = key, 1
+        while key in seen:
+            k += 1
+            key = f"{base}_{k}"
+        seen.add(key)
+        keys.append(key)
+        raw_t = np.asarray(a["raw_beat_times_s"], dtype=np.float64)
+        cor_t = np.asarray(a["corrected_beat_times_s"], dtype=np.float64)
+        n_raw = int(np.asarray(a["raw_rr_ms"]).size)
+        n_cor = int(np.asarray(a["corrected_rr_ms"]).size)
+        rows = list(rec.get("rows") or [])
+        row = table[i]
+        for name in _REC_TEXT:
+            if name == "key":
+                value = key
+            elif name in ("read_info", "clean_summary", "warnings"):
+                value = _json(rec.get(name) or ([] if name == "warnings" else {}))
+            else:
+                value = str(rec.get(name) or "")
+            row[name] = value
+        row["used_in_daily"] = 1 if rec.get("used_in_daily") else 0
+        row["t0_s"] = raw_t[0] if raw_t.size else np.nan
+        row["corrected_t0_s"] = cor_t[0] if cor_t.size else np.nan
+        for part, size in (("interval", n_raw), ("corrected", n_cor), ("window", len(rows))):
+            row[f"{part}_start"] = pos[part]
+            pos[part] += size
+            row[f"{part}_stop"] = pos[part]
+        raw_parts.append((i, raw_t[1:], a["raw_rr_ms"], a["raw_gaps"], a["labels"],
+                          a["changed"]))
+        cor_parts.append((i, cor_t[1:], a["corrected_rr_ms"], a["corrected_gaps"],
+                          a["origin"]))
+        win_rows.extend({"recording": i, **r} for r in rows)
+
     with atomic_path(path, fsync=fsync) as tmp, h5py.File(tmp, "w", track_order=True) as h5:
         h5.attrs["format"] = STORE_FORMAT
         h5.attrs["format_version"] = STORE_VERSION
         h5.attrs["rrkit_version"] = __version__
-        h5.attrs["settings"] = _json(dict(settings or {}))
-        top = h5.create_group("recordings", track_order=True)
-        for rec in recordings:
-            subj = str(rec["subject"])
-            sg_name = safe_name(subj)
-            sg = top.get(sg_name)
-            if sg is None:
-                sg = top.create_group(sg_name, track_order=True)
-                sg.attrs["subject"] = subj
-            key = recording_key(rec.get("start") or rec.get("date"), rec["sha256"])
-            name, k = key, 1
-            while name in sg:
-                k += 1
-                name = f"{key}_{k}"
-            g = sg.create_group(name)
-            groups[str(rec["source"])] = g.name
-            _write_recording(g, rec)
+        h5.attrs["settings"] = settings_text
+        h5.attrs["settings_sha256"] = hashlib.sha256(settings_text.encode()).hexdigest()
+        h5.attrs["n_recordings"] = n
+        h5.create_dataset("recordings", data=table)
+        h5.create_dataset("intervals", data=_intervals(raw_parts))
+        h5.create_dataset("corrected", data=_corrected(cor_parts))
+        h5.create_dataset("windows", data=_rows_array(win_rows))
         if daily is not None:
             _write_table(h5.create_group("daily", track_order=True), daily)
-    return groups
+    return keys
 
 
-def _write_recording(g, rec: Mapping[str, Any]) -> None:
-    g.attrs["subject"] = str(rec["subject"])
-    g.attrs["source"] = str(rec["source"])
-    g.attrs["sha256"] = str(rec["sha256"])
-    g.attrs["start"] = str(rec.get("start") or "")
-    g.attrs["date"] = str(rec.get("date") or "")
-    g.attrs["used_in_daily"] = bool(rec.get("used_in_daily", False))
-    for k in ("read_info", "clean_summary", "settings"):
-        g.attrs[k] = _json(rec.get(k) or {})
-    a = rec["arrays"]
-    raw = g.create_group("raw")
-    raw.create_dataset("beat_times_s", data=np.asarray(a["raw_beat_times_s"], dtype=np.float64))
-    raw.create_dataset("rr_ms", data=np.asarray(a["raw_rr_ms"], dtype=np.float64))
-    raw.create_dataset("gaps", data=np.asarray(a["raw_gaps"], dtype=bool))
-    labels = np.asarray(a["labels"], dtype=str)
-    width = max(1, max((len(x) for x in labels), default=1))
-    g.create_dataset("labels", data=labels.astype(f"S{width}"))
-    g.create_dataset("changed", data=np.asarray(a["changed"], dtype=bool))
-    cor = g.create_group("corrected")
-    cor.create_dataset("beat_times_s", data=np.asarray(a["corrected_beat_times_s"], np.float64))
-    cor.create_dataset("rr_ms", data=np.asarray(a["corrected_rr_ms"], dtype=np.float64))
-    cor.create_dataset("gaps", data=np.asarray(a["corrected_gaps"], dtype=bool))
-    cor.create_dataset("origin", data=np.asarray(a["origin"], dtype=np.int64))
-    _write_rows(g, "windows", rec.get("rows") or [])
+def _intervals(parts) -> np.ndarray:
+    labels = [np.asarray(p[4], dtype=str) for p in parts]
+    width = max([1, *(int(x.dtype.itemsize // 4) for x in labels if x.size)])
+    dtype = np.dtype([("recording", np.int32), ("time_s", np.float64), ("rr_ms", np.float64),
+                      ("gap", np.bool_), ("label", f"S{width}"), ("changed", np.bool_)])
+    total = sum(int(np.asarray(p[2]).size) for p in parts)
+    out = np.zeros(total, dtype=dtype)
+    at = 0
+    for (i, t, rr, gaps, _, changed), lab in zip(parts, labels, strict=True):
+        m = int(np.asarray(rr).size)
+        sl = out[at:at + m]
+        sl["recording"] = i
+        sl["time_s"] = t
+        sl["rr_ms"] = rr
+        sl["gap"] = gaps
+        sl["label"] = lab.astype(f"S{width}")
+        sl["changed"] = changed
+        at += m
+    return out
 
 
-def _write_rows(g, name: str, rows: list[Mapping[str, Any]]) -> None:
+def _corrected(parts) -> np.ndarray:
+    dtype = np.dtype([("recording", np.int32), ("time_s", np.float64), ("rr_ms", np.float64),
+                      ("gap", np.bool_), ("origin", np.int64)])
+    total = sum(int(np.asarray(p[2]).size) for p in parts)
+    out = np.zeros(total, dtype=dtype)
+    at = 0
+    for i, t, rr, gaps, origin in parts:
+        m = int(np.asarray(rr).size)
+        sl = out[at:at + m]
+        sl["recording"] = i
+        sl["time_s"] = t
+        sl["rr_ms"] = rr
+        sl["gap"] = gaps
+        sl["origin"] = origin
+        at += m
+    return out
+
+
+def _rows_array(rows: list[Mapping[str, Any]]) -> np.ndarray:
     import h5py
 
     keys: list[str] = []
     for r in rows:
         keys.extend(k for k in r if k not in keys)
+    if not keys:
+        keys = ["recording"]
     text = h5py.string_dtype("utf-8")
     fields = []
     for k in keys:
         vals = [r.get(k) for r in rows]
-        if all(isinstance(v, (int, float, np.integer, np.floating)) and not isinstance(v, bool)
-               or v is None for v in vals):
+        if k == "recording":
+            fields.append((k, np.int32))
+        elif all(v is None or (isinstance(v, (int, float, np.integer, np.floating))
+                               and not isinstance(v, bool)) for v in vals):
             fields.append((k, np.float64))
         else:
             fields.append((k, text))
     arr = np.zeros(len(rows), dtype=np.dtype(fields))
     for k, kind in fields:
         vals = [r.get(k) for r in rows]
-        if kind is np.float64:
-            arr[k] = [np.nan if v is None else float(v) for v in vals]
-        else:
+        if kind is text:
             arr[k] = ["" if v is None else str(v) for v in vals]
-    g.create_dataset(name, data=arr)
+        else:
+            arr[k] = [np.nan if v is None else v for v in vals]
+    return arr
 
 
 def _write_table(g, df) -> None:
@@ -187,8 +254,9 @@ def _write_table(g, df) -> None:
         s = df[col]
         name = safe_name(col)
         if pd.api.types.is_bool_dtype(s):
-            data = np.where(s.isna().to_numpy(), _BOOL_NA, s.fillna(False).astype(bool).to_numpy()
-                            .astype(np.int8)).astype(np.int8)
+            na = s.isna().to_numpy()
+            vals = s.fillna(False).astype(bool).to_numpy()
+            data = np.where(na, _BOOL_NA, vals.astype(np.int8)).astype(np.int8)
             ds = g.create_dataset(name, data=data)
             ds.attrs["encoding"] = "bool: 1 true, 0 false, -1 unknown"
         elif pd.api.types.is_numeric_dtype(s):
@@ -196,11 +264,17 @@ def _write_table(g, df) -> None:
                 dtype=np.float64, na_value=np.nan))
             ds.attrs["encoding"] = "float64, NaN = unknown"
         else:
-            vals = ["" if (v is None or (isinstance(v, float) and np.isnan(v)) or v is pd.NA)
-                    else (v.isoformat() if hasattr(v, "isoformat") else str(v)) for v in s]
+            vals = ["" if _missing(v) else (v.isoformat() if hasattr(v, "isoformat") else str(v))
+                    for v in s]
             ds = g.create_dataset(name, data=np.array(vals, dtype=object), dtype=text)
             ds.attrs["encoding"] = "utf-8 text, '' = unknown"
         ds.attrs["column"] = str(col)
+
+
+def _missing(v) -> bool:
+    import pandas as pd
+
+    return v is None or v is pd.NA or (isinstance(v, float) and np.isnan(v))
 
 
 def _open(path):
@@ -211,73 +285,102 @@ def _open(path):
         raise FileNotFoundError(2, "No such file", str(p))
     h5 = h5py.File(p, "r")
     if h5.attrs.get("format") != STORE_FORMAT:
+        found = h5.attrs.get("format")
         h5.close()
-        raise InputError(f"not an rrkit store (format attribute "
-                         f"{h5.attrs.get('format')!r}, expected {STORE_FORMAT!r})", path=p)
+        raise InputError(f"not an rrkit store (format attribute {found!r}, expected "
+                         f"{STORE_FORMAT!r})", path=p)
     return h5
 
 
-def read_store_index(path: str | os.PathLike[str]):
-    """One row per stored recording: ``group, subject, source, sha256, start, date,
-    used_in_daily, n_intervals``."""
+def _decode(arr: np.ndarray):
     import pandas as pd
 
-    rows = []
+    data = {}
+    for name in arr.dtype.names:
+        col = arr[name]
+        if col.dtype.kind in ("O", "S"):
+            data[name] = [x.decode() if isinstance(x, bytes) else x for x in col]
+        else:
+            data[name] = col
+    return pd.DataFrame(data)
+
+
+def read_store_index(path: str | os.PathLike[str]):
+    """The ``/recordings`` table as a DataFrame (one row per recording, in stored order)."""
     with _open(path) as h5:
-        for sg in h5["recordings"].values():
-            for g in sg.values():
-                rows.append({"group": g.name, "subject": g.attrs["subject"],
-                             "source": g.attrs["source"], "sha256": g.attrs["sha256"],
-                             "start": g.attrs["start"] or None, "date": g.attrs["date"] or None,
-                             "used_in_daily": bool(g.attrs["used_in_daily"]),
-                             "n_intervals": int(g["raw/rr_ms"].shape[0])})
-    return pd.DataFrame(rows, columns=["group", "subject", "source", "sha256", "start", "date",
-                                       "used_in_daily", "n_intervals"])
+        df = _decode(h5["recordings"][()])
+    df["used_in_daily"] = df["used_in_daily"].astype(bool)
+    return df
 
 
-def read_store_recording(path: str | os.PathLike[str], group: str) -> dict[str, Any]:
+def read_store_windows(path: str | os.PathLike[str]):
+    """The ``/windows`` table (one row per window; ``recording`` is the row in the index)."""
+    with _open(path) as h5:
+        return _decode(h5["windows"][()])
+
+
+def read_store_recording(path: str | os.PathLike[str], key: str | int) -> dict[str, Any]:
     """Everything stored for one recording.
+
+    Parameters
+    ----------
+    key : str or int
+        The recording's ``key`` (see `recording_key`) or its row in the index.
 
     Returns
     -------
     dict
         ``raw`` and ``corrected`` (`Recording`), ``labels`` (str array), ``changed``,
         ``origin``, ``windows`` (DataFrame), ``read_info``, ``clean_summary``, ``settings``
-        (dicts) and the scalar attributes.
+        (dicts) and the index row's text fields.
     """
-    import pandas as pd
-
     from ..recording import Recording
 
     with _open(path) as h5:
-        if group not in h5 or not group.startswith("/recordings/"):
-            raise InputError(f"no recording group {group!r} in this store", path=path,
+        idx = h5["recordings"]
+        keys = [k.decode() if isinstance(k, bytes) else k for k in idx["key"]]
+        if isinstance(key, (int, np.integer)) and not isinstance(key, bool):
+            i = int(key)
+            if not 0 <= i < len(keys):
+                raise InputError(f"recording index {i} is outside 0..{len(keys) - 1}", path=path)
+        elif key in keys:
+            i = keys.index(key)
+        else:
+            raise InputError(f"no recording {key!r} in this store", path=path,
                              hint="list them with read_store_index")
-        g = h5[group]
-        attrs = {k: g.attrs[k] for k in ("subject", "source", "sha256", "start", "date")}
-        raw = Recording(g["raw/beat_times_s"][()], g["raw/rr_ms"][()], gaps=g["raw/gaps"][()],
-                        subject=attrs["subject"], source=attrs["source"])
-        cor = Recording(g["corrected/beat_times_s"][()], g["corrected/rr_ms"][()],
-                        gaps=g["corrected/gaps"][()], subject=attrs["subject"],
-                        source=attrs["source"])
-        w = g["windows"][()]
-        windows = pd.DataFrame({n: ([x.decode() if isinstance(x, bytes) else x for x in w[n]]
-                                    if w.dtype[n].kind == "O" else w[n]) for n in w.dtype.names}
-                               if w.dtype.names else {})
-        out = {
-            "raw": raw, "corrected": cor,
-            "labels": g["labels"][()].astype(str),
-            "changed": g["changed"][()], "origin": g["corrected/origin"][()],
-            "windows": windows,
-            "used_in_daily": bool(g.attrs["used_in_daily"]),
-            **{k: json.loads(g.attrs[k]) for k in ("read_info", "clean_summary", "settings")},
-            **attrs,
-        }
-    return out
+        row = idx[i]
+        iv = h5["intervals"][int(row["interval_start"]):int(row["interval_stop"])]
+        cv = h5["corrected"][int(row["corrected_start"]):int(row["corrected_stop"])]
+        wv = h5["windows"][int(row["window_start"]):int(row["window_stop"])]
+        settings = json.loads(h5.attrs["settings"])
+    text = {k: (row[k].decode() if isinstance(row[k], bytes) else row[k]) for k in _REC_TEXT}
+
+    def _rec(t0, block):
+        if block.size == 0:
+            return Recording(np.zeros(0), np.zeros(0), subject=text["subject"],
+                             source=text["source"])
+        t = np.concatenate(([t0], block["time_s"]))
+        return Recording(t, block["rr_ms"], gaps=block["gap"], subject=text["subject"],
+                         source=text["source"])
+
+    return {
+        "raw": _rec(float(row["t0_s"]), iv),
+        "corrected": _rec(float(row["corrected_t0_s"]), cv),
+        "labels": iv["label"].astype(str),
+        "changed": iv["changed"].astype(bool),
+        "origin": cv["origin"].astype(np.int64),
+        "windows": _decode(wv),
+        "used_in_daily": bool(row["used_in_daily"]),
+        "settings": settings,
+        "read_info": json.loads(text["read_info"]),
+        "clean_summary": json.loads(text["clean_summary"]),
+        "warnings": json.loads(text["warnings"]),
+        **{k: text[k] for k in ("key", "subject", "source", "sha256", "start", "date")},
+    }
 
 
 def read_store_daily(path: str | os.PathLike[str]):
-    """The daily table stored under ``/daily`` (text and flags decoded; dates as text)."""
+    """The daily table stored under ``/daily`` (flags as nullable booleans, dates as text)."""
     import pandas as pd
 
     with _open(path) as h5:
