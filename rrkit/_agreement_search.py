@@ -321,8 +321,9 @@ class DefinitionSearch:
         One row per definition x cleaning, best first: ``rank``, ``definition``, ``cleaning``,
         ``n``, ``sd_diff`` (the ranking criterion), ``sd_ratio_to_best``, ``p_vs_best``
         (Pitman-Morgan test of equal SDs of differences against the best, on common pairs),
-        ``bias`` with its CI, the limits, ``ccc``, ``icc``, ``pearson_r``, ``mae``,
-        ``description``.
+        ``bias`` with its CI, the limits, ``residual_sd`` (SD of the reported values around
+        their least-squares line on the reference: what is left after a linear recalibration),
+        ``ccc``, ``icc``, ``pearson_r``, ``mae``, ``description``.
     results : Mapping[(str, str), AgreementResult]
         The full agreement result of every combination.
     reference : pandas.DataFrame
@@ -362,7 +363,7 @@ class DefinitionSearch:
         unit = "log ratio" if self.ratio else (self.results[self.best].unit or "")
         lines = [f"Which reference definition do the reported {self.metric} values resemble?",
                  "Ranked by the SD of the differences (reported - reference), the part of the "
-                 "disagreement that no calibration removes; bias is reported beside it.", ""]
+                 "disagreement that no constant offset removes; bias is reported beside it.", ""]
         lines.append(f"Closest: {best['definition']} with cleaning {best['cleaning']} "
                      f"(SD of differences {best['sd_diff']:.3g} {unit}, bias {best['bias']:.3g}, "
                      f"n = {int(best['n'])}).")
@@ -376,6 +377,14 @@ class DefinitionSearch:
             if np.isfinite(p) and p >= 0.05:
                 lines.append("The two are not clearly distinguishable with these nights: more "
                              "nights, or nights that differ more, would be needed.")
+        ranked = t[t["rank"].notna()]
+        if len(ranked) and ranked["residual_sd"].notna().any():
+            alt = ranked.loc[ranked["residual_sd"].idxmin()]
+            if alt["definition"] != best["definition"]:
+                lines.append(f"Allowing a linear recalibration (a proportional error), "
+                             f"{alt['definition']} with cleaning {alt['cleaning']} would be closest"
+                             f" (residual SD {alt['residual_sd']:.3g} {unit} against "
+                             f"{best['residual_sd']:.3g}).")
         lines.append("")
         cols = ["rank", "definition", "cleaning", "n", "sd_diff", "sd_ratio_to_best", "bias",
                 "loa_low", "loa_high", "ccc"]
@@ -387,6 +396,15 @@ class DefinitionSearch:
         lines.append("")
         lines.append(CAUTION)
         return "\n".join(lines) + "\n"
+
+
+def _residual_sd(reported: np.ndarray, reference: np.ndarray) -> float:
+    """SD of the reported values around their least-squares line on the reference (n - 2 df)."""
+    if reported.size < 3 or np.ptp(reference) == 0:
+        return math.nan
+    slope, intercept = np.polyfit(reference, reported, 1)
+    resid = reported - (intercept + slope * reference)
+    return float(np.sqrt(np.sum(resid**2) / (reported.size - 2)))
 
 
 def _identical_definitions(grid, metric: str) -> list[tuple[str, str]]:
@@ -454,6 +472,9 @@ def search_definitions(
     separately as the bias. How much closer the best is than another combination is given as
     the ratio of SDs and as the p-value of the Pitman-Morgan test of equal variances of paired
     differences (Pitman 1939, Biometrika 31:9-12; Morgan 1939, Biometrika 31:13-19).
+    A device with a proportional error (reported = a × value + b, a ≠ 1) inflates the SD of
+    differences by the spread of the values; ``residual_sd`` allows for it, and the summary
+    says when ranking by it would pick another definition.
     """
     import pandas as pd
 
@@ -491,10 +512,14 @@ def search_definitions(
                 continue
             results[(d.name, clabel)] = res
             s = res.stats
+            rep, ref_v = res.pairs["reported"].to_numpy(), res.pairs["reference"].to_numpy()
+            if ratio:
+                rep, ref_v = np.log(rep), np.log(ref_v)
             rows.append({"definition": d.name, "cleaning": clabel, "n": int(s["n"]),
                          "sd_diff": s["sd_diff"], "bias": s["bias"],
                          "bias_ci_low": s["bias_ci_low"], "bias_ci_high": s["bias_ci_high"],
-                         "loa_low": s["loa_low"], "loa_high": s["loa_high"], "ccc": s["ccc"],
+                         "loa_low": s["loa_low"], "loa_high": s["loa_high"],
+                         "residual_sd": _residual_sd(rep, ref_v), "ccc": s["ccc"],
                          "icc": s["icc"], "pearson_r": s["pearson_r"], "mae": s["mae"],
                          "description": desc[d.name]})
     if not rows:

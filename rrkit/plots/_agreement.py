@@ -158,8 +158,8 @@ def bland_altman(result, *, path=None, ax=None, title: str | None = None,
     if ratio:
         foot.append("ratio analysis on log values (Bland & Altman 1999)")
     if slope_drawn:
-        foot.append(f"dotted: differences on means, slope {s['proportional_bias_slope']:.3g}"
-                    f" per {'log unit' if ratio else unit or 'unit'}, p = {p:.2g}")
+        foot.append("dotted: least-squares line of the differences on the means (slope "
+                    f"{s['proportional_bias_slope']:.3g}, p = {p:.2g})")
     ax.text(0.0, -0.12, "\n".join(foot), transform=ax.transAxes, fontsize=7.5,
             color="#444444", va="top", ha="left", linespacing=1.4)
     ax.grid(True, color="#dddddd", lw=0.6, zorder=0)
