@@ -241,3 +241,32 @@ def test_write_rr_rejects_bad_values(tmp_path):
         write_rr(tmp_path / "x.txt", [800, -1, 800])
     with pytest.raises(InputError, match="unit must be one of"):
         write_rr(tmp_path / "x.txt", [800, 800], unit="min")
+
+
+def test_rr_in_samples_when_fs_is_given(tmp_path):
+    path = _write(tmp_path / "rr.txt", "200\n210\n190\n205\n")
+    # whole numbers and fs given: 200 samples at 250 Hz = 0.8 s, a heartbeat interval
+    rec = read(path, fs=250)
+    assert rec.info.unit == "samples"
+    assert "fs=250" in rec.info.unit_decided_by
+    assert rec.rr_ms.tolist() == pytest.approx([800, 840, 760, 820])
+
+
+def test_epoch_column_beside_rr_and_symbols(tmp_path):
+    # epoch seconds (UTC) with a symbol column: the symbol labels the beat ending each interval
+    text = "epoch,rr_ms,type\n1767250800.8,800,N\n1767250801.6,800,V\n1767250802.5,900,N\n" \
+           "1767250803.3,800,N\n"
+    rec = read(_write(tmp_path / "e.csv", text))
+    assert rec.start == datetime(2026, 1, 1, 7, 0, 0, tzinfo=timezone.utc)
+    assert rec.beat_symbols.tolist() == ["", "N", "V", "N", "N"]
+    assert rec.info.extra["beat_symbol_counts"] == "N x3, V x1"
+
+
+def test_large_file_reads(tmp_path, rng):
+    # 10^5 intervals with a timestamp column: exercises the block splitting path
+    rr = rng.normal(800, 40, 100_000).round(1)
+    t = 1767250800 + np.cumsum(rr) / 1000
+    lines = "\n".join(f"{a:.3f},{b:.1f}" for a, b in zip(t.tolist(), rr.tolist(), strict=True))
+    rec = read(_write(tmp_path / "big.csv", "unix_time,rr_ms\n" + lines + "\n"))
+    np.testing.assert_allclose(rec.rr_ms, rr)
+    assert not rec.has_gaps

@@ -106,10 +106,18 @@ def decide_kind(values: np.ndarray, *, fs_hz: float | None) -> tuple[str, str]:
                   "RR intervals")
 
 
-def decide_rr_unit(values: np.ndarray, *, path: str, lines: np.ndarray,
-                   column: str) -> tuple[str, str]:
-    """Unit of RR intervals from their median; InputError when neither unit fits or they mix."""
+def decide_rr_unit(values: np.ndarray, *, path: str, lines: np.ndarray, column: str,
+                   fs_hz: float | None = None) -> tuple[str, str]:
+    """Unit of RR intervals from their median; InputError when neither unit fits or they mix.
+
+    With ``fs_hz`` given and whole-number values whose median is a heartbeat interval in
+    samples, the unit is samples (the caller gave a sampling rate for a reason).
+    """
     med = float(np.median(values))
+    if fs_hz is not None and _in(med / fs_hz, RR_RANGE_S) and bool(
+            np.all(values == np.round(values))):
+        return "samples", (f"whole numbers with fs={fs_hz:g} Hz given; median {med:g} samples "
+                           f"= {med / fs_hz:.3g} s")
     if _in(med, RR_RANGE_MS):
         unit = "ms"
         why = f"median {med:g} lies in {RR_RANGE_MS[0]:g}-{RR_RANGE_MS[1]:g}, so milliseconds"

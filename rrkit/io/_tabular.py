@@ -185,6 +185,10 @@ def read_table(path: str, *, kind: str, unit: str, fs_hz: float | None, column,
                     f"{s} x{c}" for s, c in zip(dropped.tolist(), counts.tolist(), strict=True))
             values, lines, sym = values[keep], lines[keep], sym[keep]
         symbols = sym
+        names_, counts_ = np.unique(sym, return_counts=True)
+        order = np.argsort(-counts_, kind="stable")
+        extra["beat_symbol_counts"] = ", ".join(
+            f"{names_[i]} x{counts_[i]}" for i in order.tolist())
 
     if kind in ("rr", "peaks"):
         use_kind, kind_by = kind, "given"
@@ -198,7 +202,8 @@ def read_table(path: str, *, kind: str, unit: str, fs_hz: float | None, column,
     elif role_unit is not None and not (role_unit == "samples" and use_kind == "rr"):
         use_unit, unit_by = role_unit, f"column name {name!r}"
     elif use_kind == "rr":
-        use_unit, unit_by = decide_rr_unit(values, path=table.path, lines=lines, column=name)
+        use_unit, unit_by = decide_rr_unit(values, path=table.path, lines=lines, column=name,
+                                           fs_hz=fs_hz)
     else:
         use_unit, unit_by = decide_peak_unit(values, fs_hz=fs_hz, path=table.path, column=name)
     if use_unit == "samples" and fs_hz is None:

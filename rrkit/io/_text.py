@@ -195,6 +195,35 @@ def _choose_separator(rows: list[str], header: str | None) -> tuple[str | None, 
     return sep, "."
 
 
+def _split_columns(data: list[str], sep: str | None, data_lines: np.ndarray,
+                   path: str) -> list[list[str]]:
+    """Columns of tokens; InputError at the first row whose field count differs from row 1."""
+    if sep is None:
+        return [data]
+    if sep == " ":
+        rows = [r.split() for r in data]
+        lens = np.fromiter((len(r) for r in rows), dtype=np.int64, count=len(rows))
+    else:
+        rows = None
+        lens = np.fromiter((r.count(sep) for r in data), dtype=np.int64, count=len(data)) + 1
+    n_fields = int(lens[0])
+    bad = np.flatnonzero(lens != n_fields)
+    if bad.size:
+        j = int(bad[0])
+        raise InputError(
+            f"found {lens[j]} fields ({data[j][:60]!r}), expected {n_fields} like line "
+            f"{data_lines[0]} ({_SEP_NAMES[sep]}-separated)", path=path, line=int(data_lines[j]))
+    if rows is not None:
+        return [list(c) for c in zip(*rows, strict=True)]
+    # every row has n_fields fields: split the whole block at once (C speed) and deal out
+    joined = "\n".join(data)
+    flat = joined.replace("\n", sep).split(sep)
+    columns = [flat[k::n_fields] for k in range(n_fields)]
+    if " " in joined or (sep != "\t" and "\t" in joined):
+        columns = [[t.strip() for t in c] for c in columns]
+    return columns
+
+
 def load_table(path: str | os.PathLike[str], *, sep: str | None = None,
                decimal: str | None = None) -> TextTable:
     """Split a text file into columns of tokens (see the module notes for the rules).
@@ -219,20 +248,18 @@ def load_table(path: str | os.PathLike[str], *, sep: str | None = None,
     lines = text.replace("\r\n", "\n").replace("\r", "\n").split("\n")
     if lines and lines[-1] == "":
         lines.pop()
-    has_hash = "#" in text
-    content: list[str] = []
-    numbers: list[int] = []
+    stripped = [ln.strip() for ln in lines]
     n_comment = 0
-    for i, raw in enumerate(lines, 1):
-        if has_hash and "#" in raw:
-            if raw.lstrip().startswith("#"):
-                n_comment += 1
-                continue
-            raw = raw.split("#", 1)[0]
-        s = raw.strip()
-        if s:
-            content.append(s)
-            numbers.append(i)
+    if "#" in text:
+        for i, ln in enumerate(stripped):
+            if "#" in ln:
+                if ln.startswith("#"):
+                    n_comment += 1
+                    stripped[i] = ""
+                else:
+                    stripped[i] = ln.split("#", 1)[0].rstrip()
+    numbers = [i for i, ln in enumerate(stripped, 1) if ln]
+    content = [stripped[i - 1] for i in numbers]
     extra["n_comment_lines"] = n_comment
     extra["n_blank_lines"] = len(lines) - len(content) - n_comment
     if not content:
@@ -263,20 +290,8 @@ def load_table(path: str | os.PathLike[str], *, sep: str | None = None,
     if chosen_sep == "," and chosen_dec == ",":
         raise InputError("a comma cannot be both the separator and the decimal mark",
                          path=path_s, hint="pass sep=';' or decimal='.'")
-    rows = [_split(r, chosen_sep) for r in data] if chosen_sep is not None else None
-    n_fields = 1 if rows is None else len(rows[0])
-    if rows is not None:
-        lens = np.fromiter((len(r) for r in rows), dtype=np.int64, count=len(rows))
-        bad = np.flatnonzero(lens != n_fields)
-        if bad.size:
-            j = int(bad[0])
-            raise InputError(
-                f"found {lens[j]} fields ({data[j][:60]!r}), expected {n_fields} like line "
-                f"{data_lines[0]} ({_SEP_NAMES[chosen_sep]}-separated)",
-                path=path_s, line=int(data_lines[j]))
-        columns = [list(c) for c in zip(*rows, strict=True)]
-    else:
-        columns = [data]
+    columns = _split_columns(data, chosen_sep, data_lines, path_s)
+    n_fields = len(columns)
     names = [f"column {k + 1}" for k in range(n_fields)]
     named = False
     n_preamble = first

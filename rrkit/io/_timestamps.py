@@ -9,7 +9,6 @@ numbers are recognised by their size: seconds in [1e9, 1e10) (2001-2286), millis
 
 from __future__ import annotations
 
-import re
 from datetime import datetime, timezone
 
 import numpy as np
@@ -19,8 +18,13 @@ from ._text import TextTable, parse_numbers
 
 __all__ = ["epoch_scale", "parse_timestamps"]
 
-_OFFSET_RE = re.compile(r"(?:Z|[+-]\d{2}:?\d{2})$")
 _EPOCH_SCALES = ((1e9, 1e10, 1.0, "s"), (1e12, 1e13, 1e-3, "ms"), (1e15, 1e16, 1e-6, "us"))
+
+
+def _has_offset(tok: str) -> bool:
+    """True when an ISO 8601 time states its UTC offset (``Z``, ``+01:00``, ``-0500``)."""
+    clock = tok[10:]  # after YYYY-MM-DD, a sign can only start an offset
+    return clock.endswith("Z") or "+" in clock or "-" in clock
 
 
 def epoch_scale(values: np.ndarray) -> tuple[float, str] | None:
@@ -62,7 +66,7 @@ def parse_timestamps(table: TextTable, col: int, *,
     import pandas as pd
 
     tokens = table.columns[col]
-    aware = np.fromiter((bool(_OFFSET_RE.search(t)) for t in tokens), dtype=bool, count=len(tokens))
+    aware = np.fromiter((_has_offset(t) for t in tokens), dtype=bool, count=len(tokens))
     if aware.any() and not aware.all():
         j = int(np.flatnonzero(aware != aware[0])[0])
         raise InputError(
