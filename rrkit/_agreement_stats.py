@@ -38,7 +38,8 @@ def bland_altman(diff: np.ndarray, *, multiplier: float, confidence: float,
     """Bias, SD of differences and limits of agreement with confidence intervals.
 
     Independent pairs (``groups`` None, or every group holding one pair) follow Bland & Altman
-    1986: SE of the bias ``s/sqrt(n)``, SE of a limit ``sqrt(3 s^2 / n)``, both with ``t(n-1)``.
+    1986: SE of the bias ``s/sqrt(n)``, SE of a limit ``sqrt(3 s^2 / n)``, both with ``t(n-1)``;
+    the SD's interval is the chi-square one on n - 1 degrees of freedom.
 
     Repeated pairs per subject follow Bland & Altman 2007 (true value varying within subject):
     a one-way analysis of variance of the differences by subject gives the within-subject
@@ -48,7 +49,8 @@ def bland_altman(diff: np.ndarray, *, multiplier: float, confidence: float,
     ``s_b^2 sum m_i^2 / N^2 + s_w^2 / N`` and ``t(k-1)``. The limits' intervals combine the
     bias interval with a Graybill-Wang interval for ``s_b^2 + s_w^2`` by the method of
     recovering variance estimates (MOVER), the construction Zou (2013) proposed for this design
-    (from memory; Zou GY, Stat Methods Med Res 22:630-642).
+    (from memory; Zou GY, Stat Methods Med Res 22:630-642); the SD's interval is the square root
+    of the Graybill-Wang one.
     """
     from scipy import stats as _st
 
@@ -70,17 +72,22 @@ def bland_altman(diff: np.ndarray, *, multiplier: float, confidence: float,
     if not repeated:
         out["repeated"] = 0.0
         if n < 2:
-            out.update(sd_diff=nan, bias_ci_low=nan, bias_ci_high=nan, loa_low=nan, loa_high=nan,
-                       loa_low_ci_low=nan, loa_low_ci_high=nan, loa_high_ci_low=nan,
-                       loa_high_ci_high=nan, sd_within=nan, sd_between=nan)
+            for key in ("sd_diff", "sd_diff_ci_low", "sd_diff_ci_high", "bias_ci_low",
+                        "bias_ci_high", "loa_low", "loa_high", "loa_low_ci_low",
+                        "loa_low_ci_high", "loa_high_ci_low", "loa_high_ci_high", "sd_within",
+                        "sd_between"):
+                out[key] = nan
             return out
         s = float(d.std(ddof=1))
         t = _t_quantile(confidence, n - 1)
         se_bias = s / np.sqrt(n)
         se_loa = np.sqrt(3.0 * s * s / n)  # Bland & Altman 1986, section 5
         lo, hi = bias - multiplier * s, bias + multiplier * s
+        a = 1.0 - confidence
         out.update(
             sd_diff=s,
+            sd_diff_ci_low=s * float(np.sqrt((n - 1) / _st.chi2.ppf(1 - a / 2, n - 1))),
+            sd_diff_ci_high=s * float(np.sqrt((n - 1) / _st.chi2.ppf(a / 2, n - 1))),
             bias_ci_low=bias - t * se_bias, bias_ci_high=bias + t * se_bias,
             loa_low=lo, loa_high=hi,
             loa_low_ci_low=lo - t * se_loa, loa_low_ci_high=lo + t * se_loa,
@@ -122,7 +129,9 @@ def bland_altman(diff: np.ndarray, *, multiplier: float, confidence: float,
     zs_lo, zs_hi = multiplier * np.sqrt(max(v_lo, 0.0)), multiplier * np.sqrt(v_hi)
     lo, hi = bias - zs, bias + zs
     out.update(
-        sd_diff=s, bias_ci_low=b_lo, bias_ci_high=b_hi, loa_low=lo, loa_high=hi,
+        sd_diff=s, sd_diff_ci_low=float(np.sqrt(max(v_lo, 0.0))),
+        sd_diff_ci_high=float(np.sqrt(v_hi)),
+        bias_ci_low=b_lo, bias_ci_high=b_hi, loa_low=lo, loa_high=hi,
         # MOVER: upper limit = bias + z s, lower limit = bias - z s
         loa_high_ci_low=hi - np.sqrt((bias - b_lo) ** 2 + (zs - zs_lo) ** 2),
         loa_high_ci_high=hi + np.sqrt((b_hi - bias) ** 2 + (zs_hi - zs) ** 2),

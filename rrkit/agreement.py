@@ -19,7 +19,7 @@ from __future__ import annotations
 import logging
 import math
 from collections.abc import Mapping, Sequence
-from dataclasses import dataclass, field
+from dataclasses import dataclass
 from types import MappingProxyType
 from typing import Any
 
@@ -129,7 +129,6 @@ class AgreementResult:
     confidence: float = 0.95
     ratio: bool = False
     unmatched: Any = None
-    _extra: Mapping[str, Any] = field(default_factory=dict)
 
     def __post_init__(self) -> None:
         object.__setattr__(self, "stats", MappingProxyType({str(k): float(v)
@@ -289,8 +288,8 @@ def agreement(
         ``ccc``, ``icc`` (ICC(2,1)), ``icc_consistency`` (ICC(3,1)), ``pearson_r``,
         ``pearson_p``, ``mae``, ``mape_pct``, ``typical_error``, ``mean_reported``,
         ``mean_reference``, ``repeated`` (1.0 or 0.0), and ``<name>_ci_low`` /
-        ``<name>_ci_high`` for the bias, both limits, the slope, the CCC, both ICCs, r, MAE,
-        MAPE and the typical error.
+        ``<name>_ci_high`` for the bias, the SD, both limits, the slope, the CCC, both ICCs, r,
+        MAE, MAPE and the typical error.
 
     Raises
     ------

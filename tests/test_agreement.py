@@ -335,3 +335,22 @@ def test_public_names():
 
     assert rrkit.agreement is module_function
     assert rrkit.AgreementResult is AgreementResult
+
+
+def test_sd_interval_chi_square():
+    s = agreement(LARGE, MINI).stats
+    # textbook chi-square interval of an SD on n - 1 = 16 degrees of freedom (common practice)
+    sd = np.std(LARGE - MINI, ddof=1)
+    assert s["sd_diff_ci_low"] == pytest.approx(sd * np.sqrt(16 / st.chi2.ppf(0.975, 16)))
+    assert s["sd_diff_ci_high"] == pytest.approx(sd * np.sqrt(16 / st.chi2.ppf(0.025, 16)))
+
+
+def test_icc_interval_left_empty_at_other_levels():
+    res = agreement(LARGE, MINI, confidence=0.9)
+    assert np.isnan(res.stats["icc_ci_low"])
+    assert np.isfinite(res.stats["icc"])
+    assert any("95% only" in note for note in res.notes)
+    # other intervals follow the level: a 90% bias interval is narrower than the 95% one
+    wide = agreement(LARGE, MINI).stats
+    assert res.stats["bias_ci_high"] - res.stats["bias_ci_low"] < \
+        wide["bias_ci_high"] - wide["bias_ci_low"]
