@@ -60,7 +60,7 @@ def summary_text(result) -> str:
         dl = dr
     else:
         lines.append(f"  {'bias':<34}{_num(s['bias'], d)}{u}{_ci(s, 'bias', d)}")
-        lines.append(f"  {'SD of differences':<34}{_num(s['sd_diff'], d)}{u}")
+        lines.append(f"  {'SD of differences':<34}{_num(s['sd_diff'], d)}{u}{_ci(s, 'sd_diff', d)}")
         if result.repeated:
             lines.append(f"  {'  between / within subjects':<34}{_num(s['sd_between'], d)} / "
                          f"{_num(s['sd_within'], d)}{u}")
