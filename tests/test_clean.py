@@ -287,6 +287,21 @@ def test_implausible_and_range_setting(base_rr):
     assert wide.settings.min_rr_ms == 150
 
 
+def test_dropout_becomes_a_gap(base_rr):
+    # source: hand-built: a 30 s break not marked by the reader hides ~30 beats; rrkit keeps it
+    # as a gap instead of inventing beats (duration and later beat times unchanged)
+    rr = np.concatenate((base_rr[:200], [30_000.0], base_rr[200:]))
+    rec = Recording.from_rr(rr)
+    for strategy in ("interpolate", "drop"):
+        res = clean(rec, strategy=strategy)
+        assert res.labels[200] == "implausible"
+        assert res.changed[200]
+        k = np.flatnonzero(res.origin == 200)
+        assert k.size == 1
+        assert res.recording.gaps[k[0]]
+        assert res.recording.beat_times_s[k[0] + 1] == pytest.approx(rec.beat_times_s[201])
+
+
 def test_none_method_changes_nothing_plausible(base_rr):
     res = clean(Recording.from_rr(base_rr), method="none")
     assert (res.labels == "normal").all()

@@ -102,6 +102,23 @@ def test_cleaning_a_converged_result_changes_nothing(data, method):
 
 
 @_common
+@given(dirty_recordings(), st.floats(0.05, 0.95))
+def test_windows_partition_the_audit(data, frac):
+    # two windows that meet at one beat hold every input interval exactly once
+    rec, _ = data
+    res = clean(rec)
+    cut = float(rec.beat_times_s[int(frac * (rec.n_beats - 1))])
+    a, b = res.window(None, cut), res.window(cut, None)
+    assert a.labels.size + b.labels.size == rec.n_intervals
+    for name in LABELS:
+        assert a.summary.counts[name] + b.summary.counts[name] == res.summary.counts[name]
+    assert a.changed.sum() + b.changed.sum() == res.changed.sum()
+    for part in (a, b):
+        if part.origin.size:
+            assert part.origin.max() < part.input.n_intervals
+
+
+@_common
 @given(st.integers(0, 10_000))
 def test_clean_series_untouched_by_none(seed):
     rec = simulate_rr(300, seed=seed)

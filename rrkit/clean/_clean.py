@@ -96,7 +96,9 @@ def clean(
     ``max_hidden_beats + 1``), split into ``k`` equal intervals. ``extra``: two short intervals
     whose sum is close to the local median (a spurious beat between them), merged into one.
     ``long`` / ``short``: other outliers. ``implausible``: outside ``[min_rr_ms, max_rr_ms]``
-    and not explained as a missed or extra beat.
+    and not explained as a missed or extra beat. An implausibly long interval (a dropout that
+    hides more beats than ``max_hidden_beats``) is kept as a gap under either strategy: rrkit
+    does not invent beats to fill it.
 
     The ``"mad"`` method follows Berntson et al. (1990) as quoted by others: MED = 3.32 QD,
     MAD = (median - 2.9 QD) / 3. Which series each quartile deviation is taken of is not verified
@@ -188,6 +190,6 @@ def _one_pass(rec: Recording, s: CleanSettings):
         parts[a:b] = det.n_parts
         if det.premature.size:
             premature.append(det.premature + a)
-    out, origin, changed = correct(rec, codes, merge, parts, s.strategy)
+    out, origin, changed = correct(rec, codes, merge, parts, s.strategy, max_rr_ms=s.max_rr_ms)
     prem = np.concatenate(premature) if premature else np.zeros(0, np.int64)
     return codes, changed, out, origin, prem

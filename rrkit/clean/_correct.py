@@ -35,7 +35,8 @@ def segments_of(gaps: np.ndarray) -> np.ndarray:
 
 
 def correct(rec: Recording, codes: np.ndarray, merge_next: np.ndarray, n_parts: np.ndarray,
-            strategy: str) -> tuple[Recording, np.ndarray, np.ndarray]:
+            strategy: str, *, max_rr_ms: float = np.inf
+            ) -> tuple[Recording, np.ndarray, np.ndarray]:
     """Apply the correction.
 
     Parameters
@@ -45,6 +46,10 @@ def correct(rec: Recording, codes: np.ndarray, merge_next: np.ndarray, n_parts: 
     codes, merge_next, n_parts : numpy.ndarray, shape (rec.n_intervals,)
         Classification (see `Detection`), gap intervals coded normal.
     strategy : {"interpolate", "drop"}
+    max_rr_ms : float
+        Upper end of the plausible range: an implausible interval above it (a dropout hiding
+        more beats than a missed beat may) becomes a gap under either strategy, so that no beats
+        are invented and the time axis is kept.
 
     Returns
     -------
@@ -65,6 +70,7 @@ def correct(rec: Recording, codes: np.ndarray, merge_next: np.ndarray, n_parts: 
     spline value: the beats after it shift by the change, and the drift is taken out again at the
     next recording gap (whose value absorbs it), so each segment keeps its start time.
     Drop: those intervals are kept as gaps in the corrected recording.
+    Dropouts (implausible intervals longer than ``max_rr_ms``) are kept as gaps either way.
     """
     rr = rec.rr_ms
     t = rec.beat_times_s
@@ -80,16 +86,20 @@ def correct(rec: Recording, codes: np.ndarray, merge_next: np.ndarray, n_parts: 
     values[first] = rr[first] + rr[first + 1]
     counts[first + 1] = 0
     out_gap = gaps.copy()
+    dropout = (codes == IMPLAUSIBLE) & (rr > max_rr_ms) & ~gaps
     if strategy == "drop":
         out_gap |= bad
-    elif bad.any():
+    elif dropout.any():
+        out_gap |= dropout
+        bad = bad & ~dropout
+    if strategy == "interpolate" and bad.any():
         filled, unfilled = _interpolate(rr, t, codes, bad, gaps)
         values[bad] = filled
         out_gap |= unfilled
         if unfilled.any():
             log.warning("%d interval(s) could not be interpolated (fewer than 2 normal intervals "
                         "in their segment) and were dropped as gaps", int(unfilled.sum()))
-        values = _absorb_drift(values, counts, rr, gaps)
+        values = _absorb_drift(values, counts, rr, gaps | dropout)
 
     origin = np.repeat(np.arange(n), counts)
     out_rr = np.repeat(values, counts)
