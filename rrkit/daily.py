@@ -44,10 +44,10 @@ from .errors import InputError
 from .recording import Recording
 
 __all__ = [
-    "BaselineSettings",
-    "DailySettings",
     "DAILY_METRICS",
     "QUALITY_STATES",
+    "BaselineSettings",
+    "DailySettings",
     "add_baselines",
     "daily_table",
     "measure_recording",
@@ -386,8 +386,9 @@ def daily_table(
     Examples
     --------
     >>> import datetime as dt, rrkit
+    >>> from rrkit.simulate import simulate_rr
     >>> day = dt.datetime(2026, 3, 2, 7, 0, tzinfo=dt.timezone.utc)
-    >>> rec = rrkit.simulate.simulate_rr(duration_s=400, seed=1).replace(subject="A", start=day)
+    >>> rec = simulate_rr(duration_s=400, seed=1).replace(subject="A", start=day)
     >>> rrkit.daily_table([rec])[["subject", "date", "quality"]].iloc[0].tolist()
     ['A', datetime.date(2026, 3, 2), 'ok']
     """
@@ -476,9 +477,9 @@ def select_days(
             day = lo + dt.timedelta(days=k)
             out_rows.append(_pick(subj, day, groups.get((subj, day)), s, wake0, wake1,
                                   extra_cols))
-    cols = (["subject", "date", "source", "start_time", "window", "n_beats", "artifact_pct",
-             "corrected_pct", "quality", "quality_reason", *DAILY_METRICS, "n_recordings"]
-            + extra_cols)
+    cols = ["subject", "date", "source", "start_time", "window", "n_beats", "artifact_pct",
+            "corrected_pct", "quality", "quality_reason", *DAILY_METRICS, "n_recordings",
+            *extra_cols]
     table = pd.DataFrame(out_rows, columns=cols)
     table["n_beats"] = pd.array([None if _isna(v) else int(v) for v in table["n_beats"]],
                                 dtype="Int64")
@@ -510,8 +511,8 @@ def _pick(subj, day, group, s: DailySettings, wake0, wake1, extra_cols):
                             "window": None, "n_beats": None, "artifact_pct": np.nan,
                             "corrected_pct": np.nan, "quality": "missing",
                             "quality_reason": "no recording", "n_recordings": 0}
-    base.update({k: np.nan for k in DAILY_METRICS})
-    base.update({c: None for c in extra_cols})
+    base.update(dict.fromkeys(DAILY_METRICS, np.nan))
+    base.update(dict.fromkeys(extra_cols))
     if not group:
         return base
     base["n_recordings"] = len(group)

@@ -144,7 +144,8 @@ def test_placement_time_zone_dst_and_unmatched(tmp_path):
     assert "does not exist in time zone Europe/Berlin" in errs.loc["A01_2026-03-29_0230.txt",
                                                                    "message"]
     msg = errs.loc["misc/recording.txt", "message"]
-    assert "no subject" in msg and "does not match the pattern" in msg
+    assert "no subject" in msg
+    assert "does not match the pattern" in msg
     assert summary.exit_code == 1
 
 
@@ -190,7 +191,8 @@ def test_fault_tolerance_cli_exit_code_and_errors_csv(tmp_path, capsys):
     assert used == {f.relative_to(data).as_posix() for f in good}  # every good file has its row
     # the failed days are present, as missing, with the reason
     failed_day = daily[(daily["subject"] == "B02") & (daily["date"] == "2026-03-09")].iloc[0]
-    assert failed_day["quality"] == "missing" and "errors.csv" in failed_day["quality_reason"]
+    assert failed_day["quality"] == "missing"
+    assert "errors.csv" in failed_day["quality_reason"]
     assert "12 done, 0 skipped (unchanged), 3 failed" in text
     assert "Training decisions rest with qualified staff" in text
     for name in ("daily.parquet", "store.h5", "provenance.json", "weekly.csv", "recordings.csv"):
@@ -264,7 +266,7 @@ def test_killed_run_then_rerun_gives_same_table(tmp_path):
     assert not (out / "daily.csv").exists()  # killed before the end: no output at all
     rerun = subprocess.run(cmd, capture_output=True, text=True, timeout=300)
     assert rerun.returncode == 0, rerun.stderr
-    assert f"skipped (unchanged)" in rerun.stdout
+    assert "skipped (unchanged)" in rerun.stdout
     skipped = int(rerun.stdout.rsplit(" done, ", 1)[1].split(" skipped")[0])
     assert skipped >= n_cached - 1
     assert (out / "daily.csv").read_bytes() == (ref / "daily.csv").read_bytes()
@@ -307,7 +309,8 @@ def test_local_executor_matches_inline():
     with LocalExecutor(2) as ex:
         got = sorted(ex.imap_unordered(_square, items, chunksize=5))
     assert got == [x * x for x in items]
-    assert isinstance(ex, rrkit.batch.Executor) and isinstance(InlineExecutor(), rrkit.batch.Executor)
+    assert isinstance(ex, rrkit.batch.Executor)
+    assert isinstance(InlineExecutor(), rrkit.batch.Executor)
     with pytest.raises(rrkit.InputError, match="jobs must be in"):
         LocalExecutor(0)
 

@@ -48,7 +48,8 @@ def test_rolling_fixture_from_references():
     assert day7["ln_rmssd_band_low"] == pytest.approx(4.034008, abs=5e-7)
     assert day7["ln_rmssd_band_high"] == pytest.approx(4.144324, abs=5e-7)
     # fewer than 3 ok days in the window: no 7-day value (Plews et al. 2014 minimum)
-    assert math.isnan(out.iloc[1]["ln_rmssd_7d"]) and out.iloc[2]["n_ok_7d"] == 3
+    assert math.isnan(out.iloc[1]["ln_rmssd_7d"])
+    assert out.iloc[2]["n_ok_7d"] == 3
     assert not math.isnan(out.iloc[2]["ln_rmssd_7d"])
 
 
@@ -178,7 +179,8 @@ def test_localize_dst_and_nonexistent_time():
     # Europe/Berlin moves from +01:00 to +02:00 at 02:00 local on 29 March 2026 (IANA tz data)
     a = localize(dt.datetime(2026, 3, 28, 7, 30), "Europe/Berlin")
     b = localize(dt.datetime(2026, 3, 29, 7, 30), "Europe/Berlin")
-    assert a.utcoffset() == dt.timedelta(hours=1) and b.utcoffset() == dt.timedelta(hours=2)
+    assert a.utcoffset() == dt.timedelta(hours=1)
+    assert b.utcoffset() == dt.timedelta(hours=2)
     utc = dt.timezone.utc
     assert b.astimezone(utc) - a.astimezone(utc) == dt.timedelta(hours=23)  # same wall time
     with pytest.raises(rrkit.InputError, match="does not exist in time zone Europe/Berlin"):
@@ -210,7 +212,8 @@ def test_select_days_rules():
         # 1 April: only an evening recording
         {"subject": "A", "start": "2026-04-01T20:00:00", "source": "evening", "quality": "ok"},
         # 23:30 UTC on 1 April is 01:30 on 2 April in Berlin: a night, not a morning
-        {"subject": "B", "start": "2026-04-01T23:30:00+00:00", "source": "b-night", "quality": "ok"},
+        {"subject": "B", "start": "2026-04-01T23:30:00+00:00", "source": "b-night",
+         "quality": "ok"},
     ])
     days = select_days(t, settings=berlin).set_index(["subject", "date"])
     a = days.loc["A"]
@@ -240,12 +243,14 @@ def test_select_days_marked_rule_and_failed_files():
          "marked": None},
     ])
     days = select_days(t, settings=s)
-    assert days["source"].iloc[0] == "y" and pd.isna(days["source"].iloc[1])
+    assert days["source"].iloc[0] == "y"
+    assert pd.isna(days["source"].iloc[1])
     assert "no recording marked" in days["quality_reason"].iloc[1]
     t2 = _per_rec([{"subject": "A", "start": "2026-03-02T07:00:00", "source": "bad",
                     "quality": "missing", "failed": True}])
     d2 = select_days(t2)
-    assert d2["quality"].iloc[0] == "missing" and "errors.csv" in d2["quality_reason"].iloc[0]
+    assert d2["quality"].iloc[0] == "missing"
+    assert "errors.csv" in d2["quality_reason"].iloc[0]
 
 
 # ----------------------------------------------------------------------------- with recordings

@@ -86,15 +86,20 @@ def test_store_rejects_foreign_file_and_unknown_key(tmp_path, run):
                                   "CON", "x" * 300, "ünï cödé", "\x00nul"])
 def test_safe_name_is_one_plain_component(text):
     name = safe_name(text)
-    assert name and len(name) <= 64
-    assert "/" not in name and "\\" not in name and "\x00" not in name
-    assert name not in (".", "..") and not name.startswith((".", "-"))
+    assert name
+    assert len(name) <= 64
+    assert "/" not in name
+    assert "\\" not in name
+    assert "\x00" not in name
+    assert name not in (".", "..")
+    assert not name.startswith((".", "-"))
     assert all(c.isascii() and (c.isalnum() or c in "._-") for c in name)
 
 
 def test_safe_name_keeps_distinct_ids_distinct():
     assert safe_name("A01") == "A01"
-    assert safe_name("a/b") != safe_name("a_b") and safe_name("a_b") == "a_b"
+    assert safe_name("a/b") != safe_name("a_b")
+    assert safe_name("a_b") == "a_b"
 
 
 def test_neutralize_only_text_cells():
@@ -104,7 +109,8 @@ def test_neutralize_only_text_cells():
     out = neutralize_cells(df)
     assert list(out["subject"]) == ["'=HYPERLINK(1)", "'+1", "'-x", "'@SUM(A1)", "A01"]
     assert list(out["value"]) == [-1.5, 2.0, -3.0, 4.0, 5.0]  # numbers untouched
-    assert neutralize_cell(-2) == -2 and neutralize_cell(None) is None
+    assert neutralize_cell(-2) == -2
+    assert neutralize_cell(None) is None
 
 
 def test_hostile_manifest_values_stay_inside(tmp_path):
@@ -132,16 +138,19 @@ def test_hostile_manifest_values_stay_inside(tmp_path):
         h5.visit(names.append)
         assert all(".." not in n and not n.startswith("/") for n in names)
         cols = [h5["daily"][n].attrs["column"] for n in h5["daily"]]
-        assert "../../escape" in cols and "daily/../../escape" not in names
+        assert "../../escape" in cols
+        assert "daily/../../escape" not in names
     subjects = set(read_store_index(summary.outputs["store"])["subject"])
     assert subjects == {"../../evil", "/abs/evil", '=HYPERLINK("http://x")'}
     # CSV: formula-like text cells neutralised, numbers untouched
     text = (out / "daily.csv").read_text()
-    assert "'=HYPERLINK" in text and ",=HYPERLINK" not in text
+    assert "'=HYPERLINK" in text
+    assert ",=HYPERLINK" not in text
     daily = pd.read_csv(out / "daily.csv")
     assert "'=cmd|' /C calc'!A0" in daily.columns
     assert set(daily["'=cmd|' /C calc'!A0"].dropna()) == {"'=1+1", "'-2", "safe"}
     assert set(daily["../../escape"].dropna()) == {"'@x", "'+3", "text"}
-    assert pd.api.types.is_float_dtype(daily["ln_rmssd"]) and daily["ln_rmssd"].notna().all()
+    assert pd.api.types.is_float_dtype(daily["ln_rmssd"])
+    assert daily["ln_rmssd"].notna().all()
     assert daily.loc[daily["subject"] == "'=HYPERLINK(\"http://x\")", "date"].tolist() == [
         dt.date(2026, 3, 2).isoformat()]

@@ -20,8 +20,15 @@ from ..daily import localize
 from ..errors import InputError
 from ._pattern import DEFAULT_PATTERN, FilenamePattern
 
-__all__ = ["Candidate", "Discovery", "DEFAULT_EXTENSIONS", "discover", "read_manifest",
-           "assign", "sha256_file"]
+__all__ = [
+    "DEFAULT_EXTENSIONS",
+    "Candidate",
+    "Discovery",
+    "assign",
+    "discover",
+    "read_manifest",
+    "sha256_file",
+]
 
 #: File endings looked at by default (also with ``.gz``). WFDB records are found by their
 #: ``.hea`` header; ``.dat`` / ``.atr`` beside it belong to that record.

@@ -43,7 +43,7 @@ from dataclasses import dataclass, field
 
 from ..errors import InputError
 
-__all__ = ["FilenamePattern", "DEFAULT_PATTERN"]
+__all__ = ["DEFAULT_PATTERN", "FilenamePattern"]
 
 #: Used when neither a manifest nor a pattern is given.
 DEFAULT_PATTERN = "{subject}_{date}[_{time}]*"

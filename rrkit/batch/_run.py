@@ -25,7 +25,7 @@ from ._pattern import FilenamePattern
 from ._safe import neutralize_cells
 from ._work import CACHE_DIR, ResultCache, broken_result, process_and_cache, settings_hash
 
-__all__ = ["RunSummary", "run_daily", "OUTPUT_NAMES"]
+__all__ = ["OUTPUT_NAMES", "RunSummary", "run_daily"]
 
 log = logging.getLogger("rrkit")
 

@@ -20,11 +20,12 @@ import hashlib
 import re
 import unicodedata
 
-__all__ = ["safe_name", "neutralize_cell", "neutralize_cells"]
+__all__ = ["neutralize_cell", "neutralize_cells", "safe_name"]
 
 _ALLOWED = re.compile(r"[^A-Za-z0-9._-]+")
 # device names that some file systems refuse as file names (common practice to avoid them)
-_RESERVED = {"con", "prn", "aux", "nul", *(f"com{i}" for i in range(10)), *(f"lpt{i}" for i in range(10))}
+_RESERVED = {"con", "prn", "aux", "nul", *(f"com{i}" for i in range(10)),
+             *(f"lpt{i}" for i in range(10))}
 _FORMULA_START = ("=", "+", "-", "@", "\t", "\r")
 
 
@@ -81,8 +82,8 @@ def neutralize_cell(value: object) -> object:
 
     Examples
     --------
-    >>> neutralize_cell("=1+1"), neutralize_cell("-x"), neutralize_cell(-0.5), neutralize_cell("A01")
-    ("'=1+1", "'-x", -0.5, 'A01')
+    >>> neutralize_cell("=1+1"), neutralize_cell("-x"), neutralize_cell(-0.5)
+    ("'=1+1", "'-x", -0.5)
     """
     if isinstance(value, str) and value.startswith(_FORMULA_START):
         return "'" + value

@@ -26,7 +26,7 @@ import numpy as np
 from ..daily import DailySettings, _plain, measure_recording
 from ._atomic import atomic_path
 
-__all__ = ["process_file", "process_and_cache", "settings_hash", "ResultCache", "ARRAY_NAMES"]
+__all__ = ["ARRAY_NAMES", "ResultCache", "process_and_cache", "process_file", "settings_hash"]
 
 #: Arrays a successful result carries (for the HDF5 store).
 ARRAY_NAMES = ("raw_beat_times_s", "raw_rr_ms", "raw_gaps", "labels", "changed",

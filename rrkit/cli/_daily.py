@@ -27,7 +27,8 @@ CAUTION = ("rrkit is not a medical device and makes no diagnosis; a value outsid
 def _wake(text: str) -> tuple[str, str]:
     m = re.fullmatch(r"\s*(\d{1,2}:\d{2})\s*-\s*(\d{1,2}:\d{2})\s*", text or "")
     if not m:
-        raise InputError(f"--wake must read HH:MM-HH:MM; got {text!r}", hint="for example 04:00-12:00")
+        raise InputError(f"--wake must read HH:MM-HH:MM; got {text!r}",
+                         hint="for example 04:00-12:00")
     return tuple(f"{int(t.split(':')[0]):02d}:{t.split(':')[1]}" for t in m.groups())
 
 
