@@ -65,7 +65,8 @@ def test_edf_round_trip(tmp_path, ecg_mv):
     assert info.extra["detection_quality"] >= 0.95
     # the same signal from a CSV column, with the rate given
     csv = tmp_path / "ecg.csv"
-    csv.write_text("ecg_mv\n" + "\n".join(f"{v:.6f}" for v in ecg_mv) + "\n")
+    rows = (f"{k / FS_HZ:.4f},{v:.6f}" for k, v in enumerate(ecg_mv.tolist()))
+    csv.write_text("time_s,ecg_mv\n" + "\n".join(rows) + "\n")  # an ECG table, not peaks
     from_csv = read(csv, fs=FS_HZ)
     assert from_csv.info.kind == "ecg"
     assert from_csv.info.column == "ecg_mv"

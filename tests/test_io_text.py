@@ -270,3 +270,21 @@ def test_large_file_reads(tmp_path, rng):
     rec = read(_write(tmp_path / "big.csv", "unix_time,rr_ms\n" + lines + "\n"))
     np.testing.assert_allclose(rec.rr_ms, rr)
     assert not rec.has_gaps
+
+
+def test_spreadsheet_quirks(tmp_path):
+    # quoted fields, a separator ending each row, UTF-16 with BOM
+    text = '"time";"RR";\n"0,8";"800";\n"1,61";"810";\n"2,4";"790";\n"3,205";"805";\n'
+    path = tmp_path / "sheet.csv"
+    path.write_bytes(text.encode("utf-16"))
+    rec = read(path)
+    assert rec.info.column == "RR"
+    assert rec.rr_ms.tolist() == [800, 810, 790, 805]
+    assert rec.info.extra["encoding"] == "utf-16"
+
+
+def test_spreadsheet_binary_hint(tmp_path):
+    path = tmp_path / "book.xlsx"
+    path.write_bytes(b"PK\x03\x04\x14\x00\x06\x00\x08\x00\x00\x00!\x00")
+    with pytest.raises(InputError, match="export it as CSV"):
+        read(path)

@@ -112,7 +112,8 @@ def _choose_value_column(table, lay, *, kind, column, fs_hz) -> tuple[int | None
         units = {k: lay["roles"][k]["unit"] for k in by_role["peaks"]}
         prefer = ["samples", "s", "ms"] if fs_hz is not None else ["s", "ms", None, "samples"]
         by_role["peaks"].sort(key=lambda k: prefer.index(units[k]) if units[k] in prefer else 9)
-    order = [kind] if kind in ("rr", "peaks", "ecg") else ["rr", "peaks", "ecg"]
+    # a table with a time column and an ECG column is an ECG table, not peak times
+    order = [kind] if kind in ("rr", "peaks", "ecg") else ["rr", "ecg", "peaks"]
     for role in order:
         if by_role.get(role):
             k = by_role[role][0]

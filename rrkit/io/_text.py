@@ -45,7 +45,7 @@ _SPECIAL_RE = re.compile(r"^[+-]?(?:nan|inf|infinity)$", re.IGNORECASE)
 _ISO_RE = re.compile(
     r"^\d{4}-\d{2}-\d{2}(?:[T ]\d{2}:\d{2}(?::\d{2}(?:[.,]\d+)?)?)?(?:Z|[+-]\d{2}:?\d{2})?$")
 _DECIMAL_COMMA_RE = re.compile(r"^[+-]?\d*,\d+(?:[eE][+-]?\d+)?$")
-_TOKEN_SPLIT_RE = re.compile(r"[,;\t ]+")
+_TOKEN_SPLIT_RE = re.compile(r"[,;\t '\"]+")
 _CONTROL_RE = re.compile(r"[\x00-\x08\x0b\x0e-\x1f\x7f]")
 
 _SEP_NAMES = {";": "semicolon", "\t": "tab", ",": "comma", None: "none (one column)", " ": "spaces"}
@@ -114,12 +114,21 @@ def read_text(path: str | os.PathLike[str]) -> tuple[str, dict[str, Any]]:
         info["gzip"] = True
     if not raw.strip():
         raise InputError("the file is empty, expected beat data", path=p)
+    if raw[:2] in (b"\xff\xfe", b"\xfe\xff"):  # UTF-16 with its byte-order mark
+        try:
+            text = raw.decode("utf-16")
+        except UnicodeDecodeError:
+            raise InputError("damaged UTF-16 text, expected a text file", path=p) from None
+        info.update(bom=True, encoding="utf-16")
+        return text.lstrip("\ufeff"), info
     head = raw[:_SNIFF_BYTES]
     nul = head.find(b"\x00")
     if nul >= 0:
+        hint = "EDF and WFDB files are known by their extension: .edf, .hea, .atr"
+        if raw[:2] == b"PK":
+            hint = "this looks like a zip or spreadsheet file (.xlsx); export it as CSV"
         raise InputError(f"binary data (a NUL byte at byte {nul}), expected a text file",
-                         path=p,
-                         hint="EDF and WFDB files are known by their extension: .edf, .hea, .atr")
+                         path=p, hint=hint)
     info["bom"] = raw.startswith(b"\xef\xbb\xbf")
     try:
         text = raw.decode("utf-8-sig")
@@ -221,6 +230,8 @@ def _split_columns(data: list[str], sep: str | None, data_lines: np.ndarray,
     columns = [flat[k::n_fields] for k in range(n_fields)]
     if " " in joined or (sep != "\t" and "\t" in joined):
         columns = [[t.strip() for t in c] for c in columns]
+    if '"' in joined:  # quoted fields of spreadsheet exports: "812"
+        columns = [[t.strip('"').strip() for t in c] for c in columns]
     return columns
 
 
@@ -291,12 +302,17 @@ def load_table(path: str | os.PathLike[str], *, sep: str | None = None,
         raise InputError("a comma cannot be both the separator and the decimal mark",
                          path=path_s, hint="pass sep=';' or decimal='.'")
     columns = _split_columns(data, chosen_sep, data_lines, path_s)
+    trailing_empty = len(columns) > 1 and not any(columns[-1])
+    if trailing_empty:  # every row ends with a separator ("812;")
+        columns.pop()
     n_fields = len(columns)
     names = [f"column {k + 1}" for k in range(n_fields)]
     named = False
     n_preamble = first
     if header is not None:
-        fields = _split(header, chosen_sep) if n_fields > 1 else [header]
+        fields = _split(header, chosen_sep) if n_fields > 1 or trailing_empty else [header]
+        if trailing_empty and fields and not fields[-1]:
+            fields.pop()
         if len(fields) == n_fields:
             names = [f.strip().strip('"').strip("'") or names[k] for k, f in enumerate(fields)]
             named = True
