@@ -158,3 +158,28 @@ def test_builtin_definition_names_are_documented():
     for name, d in REFERENCE_DEFINITIONS.items():
         assert d.name == name
         assert d.description
+
+
+def test_cleaning_choices_are_equivalent_spellings(nights):
+    from rrkit import CleanSettings
+
+    by_name = reference_table(nights[:2], definition="tiles-5min", clean="drr-drop")
+    by_settings = reference_table(nights[:2], definition="tiles-5min",
+                                  clean=CleanSettings(method="drr", strategy="drop"))
+    by_kwargs = reference_table(nights[:2], definition="tiles-5min",
+                                clean={"method": "drr", "strategy": "drop"})
+    np.testing.assert_array_equal(by_name["rmssd_ms"], by_settings["rmssd_ms"])
+    np.testing.assert_array_equal(by_name["rmssd_ms"], by_kwargs["rmssd_ms"])
+    assert by_settings["cleaning"].iloc[0] == "drr/drop"
+    assert reference_table(nights[:1], clean=None)["cleaning"].iloc[0] == "none"
+
+
+def test_ratio_search_recovers_a_multiplicative_device(nights):
+    # known truth: the device reads 15% high on the last hour, with no additive bias
+    exact = simulate_wearable_reports(nights, definition="last-1h", seed=1)
+    reported = exact.assign(rmssd_ms=exact["rmssd_ms"] * 1.15)
+    found = search_definitions(reported, nights, cleanings=["drr"], ratio=True, progress=False)
+    assert found.best[0] == "last-1h"
+    s = found.results[found.best].stats
+    assert s["bias"] == pytest.approx(1.15, rel=1e-9)  # exact: every ratio is 1.15
+    assert any("log scale" in note for note in found.notes)
