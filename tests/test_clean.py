@@ -204,11 +204,11 @@ def _neurokit_changed(rec: Recording) -> np.ndarray:
     return changed
 
 
-@pytest.mark.parametrize("cls", CLASSES)
-def test_agrees_with_neurokit2_on_injected_artifacts(cls):
+@pytest.mark.parametrize(("cls", "rate"), CASES)
+def test_agrees_with_neurokit2_on_injected_artifacts(cls, rate):
     # source: neurokit2 signal_fixpeaks with its defaults, which implements Lipponen &
     # Tarvainen (2019); on at least 90% of the injected artifacts both flag it or both do not
-    _, rec, truth = planted(cls, 0.03, 80 + CLASSES.index(cls))
+    _, rec, truth = planted(cls, rate, 80 + CASES.index((cls, rate)))
     ours = clean(rec).labels != "normal"
     theirs = _neurokit_changed(rec)
     events = truth.events[cls]

@@ -58,7 +58,8 @@ class CleanSettings:
         published.
     median_window_beats : int
         ``"median"`` method: beats on *each side* whose median is the reference, 5 (rrkit's
-        choice: the same 11-beat span as the drr median, centre excluded).
+        choice: the same 11-beat span as the drr median; the centre beat is part of it, which
+        moves the median by at most one rank when that beat is an outlier).
     median_max_deviation : float
         ``"median"`` method: relative deviation from that median that marks an artifact, 0.20
         (the 20% rule, common practice; attributed to Malik et al. 1993 from memory; Machado et al.
