@@ -93,8 +93,6 @@ def _load_nights(folder: Path, manifest, pattern, tz: str, reported: Path):
             if not hasattr(start, "hour"):
                 raise InputError("only the date of this night is known; a night needs its start "
                                  "time", path=cand.relpath, hint="give start in the manifest")
-            if rec.start is not None and rec.start.utcoffset() is not None:
-                start = rec.start  # the file's own time stamps win for an aware clock
             nights.append(rec.replace(subject=subject, start=start, source=cand.relpath))
         except (InputError, OSError) as exc:
             problems.append((cand.relpath, type(exc).__name__, " ".join(str(exc).split())))

@@ -19,6 +19,11 @@ _COLOURS = [OKABE_ITO[k] for k in ("blue", "orange", "green", "vermillion", "pur
                                    "black")]
 _MARKERS = ["o", "s", "^", "D", "v", "P", "X", "<", ">", "h"]
 _MAX_LEGEND = 12
+# readable names of common metric keys for axis labels (other keys are shown as they are)
+_READABLE = {"rmssd_ms": "RMSSD", "ln_rmssd": "ln RMSSD", "sdnn_ms": "SDNN",
+             "mean_hr_bpm": "mean heart rate", "min_hr_bpm": "lowest heart rate",
+             "mean_rr_ms": "mean RR interval", "hf_ms2": "HF power", "lf_ms2": "LF power",
+             "pnn50_pct": "pNN50"}
 
 
 def _fmt(x: float, ratio: bool, decimals: int) -> str:
@@ -68,7 +73,7 @@ def bland_altman(result, *, path=None, ax=None, title: str | None = None,
     ratio = result.ratio
     unit = result.unit or ""
     u = f" ({unit})" if unit else ""
-    metric = result.metric or "value"
+    metric = _READABLE.get(result.metric, result.metric or "value")
     if ax is None:
         fig = new_figure(width_in, height_in)
         ax = fig.add_subplot(1, 1, 1)
