@@ -267,6 +267,8 @@ def test_ectopic_pair_both_corrected_and_counted(base_rr):
     assert res.changed[121]
     assert res.summary.corrected_pct == pytest.approx(100 * 2 / rr.size)
     assert res.ectopic_beats.tolist() == [121]  # the premature beat ends interval 120
+    assert res.summary.n_premature == 1
+    assert res.summary.counts["ectopic"] == 2
     # the beats around the pair keep their times; the premature beat moves
     np.testing.assert_allclose(res.recording.beat_times_s[[120, 122]], rec.beat_times_s[[120, 122]])
     assert abs(res.recording.rr_ms[120] - base_rr[120]) < 0.5 * shift

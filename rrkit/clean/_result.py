@@ -56,6 +56,9 @@ class CleanSummary:
         Why the verdict was reached (empty when ``ok``).
     caution : str or None
         Text shown when premature beats are frequent (rrkit does not diagnose).
+    n_premature : int
+        Premature (or misplaced) beats behind the ``ectopic`` intervals (each such beat labels
+        two intervals); ``ectopic_per_hour`` counts these.
     """
 
     n_intervals: int
@@ -67,6 +70,7 @@ class CleanSummary:
     quality: str
     quality_reason: str = ""
     caution: str | None = None
+    n_premature: int = 0
 
     def __post_init__(self) -> None:
         object.__setattr__(self, "counts", MappingProxyType(dict(self.counts)))
@@ -77,7 +81,8 @@ class CleanSummary:
         out.update({f"n_{k}": int(v) for k, v in self.counts.items()})
         out.update(artifact_pct=self.artifact_pct, corrected_pct=self.corrected_pct,
                    longest_artifact_run=self.longest_artifact_run,
-                   ectopic_per_hour=self.ectopic_per_hour, quality=self.quality,
+                   ectopic_per_hour=self.ectopic_per_hour, n_premature=self.n_premature,
+                   quality=self.quality,
                    quality_reason=self.quality_reason, caution=self.caution)
         return out
 
@@ -254,4 +259,4 @@ def summarize(labels: np.ndarray, changed: np.ndarray, gaps: np.ndarray, rr_ms: 
     if per_hour > limit and n_ectopic_beats >= getattr(settings, "caution_min_ectopic", 1):
         caution = CAUTION_TEXT.format(n=n_ectopic_beats, rate=per_hour, limit=limit)
     return CleanSummary(n, counts, artifact_pct, corrected_pct, longest, per_hour, quality,
-                        reason, caution)
+                        reason, caution, int(n_ectopic_beats))
