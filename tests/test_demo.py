@@ -8,13 +8,12 @@ from pathlib import Path
 import numpy as np
 import pandas as pd
 import pytest
+from test_plots import assert_png  # tests/ is on sys.path (pytest rootdir import mode)
 
 from rrkit import InputError
 from rrkit.cli import main
 from rrkit.simulate import squad
 from rrkit.simulate._squad_nights import WEARABLE
-
-from .test_plots import assert_png
 
 REPO = Path(__file__).resolve().parents[1]
 SAMPLES = REPO / "data_samples"
@@ -50,11 +49,12 @@ def test_small_demo_writes_every_output(small_run):
     for p in figs:
         assert_png(p)
     text = (out / "summary.txt").read_text()
-    assert "simulation, not real people" in text and "not a medical device" in text
+    assert "simulation, not real people" in text
+    assert "not a medical device" in text
 
 
 def test_small_demo_lists_the_failed_file(small_run):
-    _rc, data, out = small_run
+    _rc, _data, out = small_run
     errors = pd.read_csv(out / "daily" / "errors.csv")
     # R02's day-9 morning is an error page saved instead of data (the squad's story)
     assert errors["path"].str.startswith("R02/R02_20260114").any()
@@ -97,7 +97,8 @@ def test_frequent_ectopy_athlete_gets_the_caution(full_run):
     _rc, out = full_run
     text = (out / "summary.txt").read_text()
     cautions = [ln for ln in text.splitlines() if ln.startswith("CAUTION")]
-    assert len(cautions) == 1 and cautions[0].startswith("CAUTION R05")
+    assert len(cautions) == 1
+    assert cautions[0].startswith("CAUTION R05")
     assert "belong with a clinician" in text
 
 

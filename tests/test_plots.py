@@ -18,7 +18,8 @@ def assert_png(path, *, min_px=(300, 300)) -> None:
 
     assert path.read_bytes()[:8] == PNG_MAGIC
     img = mpimg.imread(path)
-    assert img.shape[0] >= min_px[0] and img.shape[1] >= min_px[1]
+    assert img.shape[0] >= min_px[0]
+    assert img.shape[1] >= min_px[1]
     grey = img[..., :3].mean(axis=2)
     assert grey.std() > 0.02, "the figure is (nearly) blank"
     # some ink: a reasonable share of pixels darker than the white background
@@ -72,7 +73,8 @@ def test_athlete_trend_png(tmp_path):
     assert_png(out)
     labels = fig.axes[0].get_legend_handles_labels()[1]
     assert "7-day mean below band" in labels  # B2's lowered fortnight is marked
-    assert "rejected / failed file" in labels and "no recording" in labels
+    assert "rejected / failed file" in labels
+    assert "no recording" in labels
 
 
 def test_squad_overview_png(tmp_path):
@@ -107,7 +109,9 @@ def test_recording_diagnostic_png(tmp_path):
     assert any(lab.startswith("missed beat") for lab in labels)
     assert any(lab.startswith("ectopic") for lab in labels)
     texts = " ".join(t.get_text() for t in fig.axes[1].texts)
-    assert "LF" in texts and "HF" in texts and "ms²" in texts
+    assert "LF" in texts
+    assert "HF" in texts
+    assert "ms²" in texts
     assert "SD1" in " ".join(t.get_text() for t in fig.axes[2].texts)
 
 

@@ -2,8 +2,10 @@
 
 from __future__ import annotations
 
+import contextlib
 import gzip
 import hashlib
+import itertools
 import json
 from pathlib import Path
 
@@ -11,8 +13,8 @@ import numpy as np
 import pandas as pd
 import pytest
 
-from rrkit.simulate import squad
 from rrkit.simulate import _squad_story as story
+from rrkit.simulate import squad
 
 REPO = Path(__file__).resolve().parents[1]
 SAMPLES = REPO / "data_samples"
@@ -21,7 +23,8 @@ SAMPLES = REPO / "data_samples"
 def _digest(path: Path) -> str:
     data = path.read_bytes()
     if path.suffix == ".gz":  # compare the content; gzip headers are fixed (mtime 0, no name)
-        data = gzip.decompress(data)
+        with contextlib.suppress(EOFError):  # the deliberately cut-off upload: its raw bytes
+            data = gzip.decompress(data)
     return hashlib.sha256(data).hexdigest()
 
 
@@ -68,11 +71,13 @@ def test_story_in_the_truth():
         drops.append(base - alt)
         assert squad._day_noise(s, a).shape == (84,)
     drops = np.array(drops)
-    assert (drops > 0.2).sum() >= 6 and (drops < 0.1).sum() == 2
+    assert (drops > 0.2).sum() >= 6
+    assert (drops < 0.1).sum() == 2
     # the phases tile the 12 weeks without gaps
     edges = [(lo, hi) for _n, lo, hi in story.PHASES]
-    assert edges[0][0] == 0 and edges[-1][1] == 83
-    assert all(b[0] == a[1] + 1 for a, b in zip(edges, edges[1:], strict=False))
+    assert edges[0][0] == 0
+    assert edges[-1][1] == 83
+    assert all(b[0] == a[1] + 1 for a, b in itertools.pairwise(edges))
 
 
 def test_files_in_their_formats(tmp_path):
@@ -92,7 +97,8 @@ def test_files_in_their_formats(tmp_path):
     assert list(manifest.columns) == ["path", "subject", "start", "format"]
     assert len(manifest) == len(out.mornings)
     doc = json.loads((tmp_path / "squad.json").read_text())
-    assert "invented" in doc["description"] and "not real people" in doc["description"]
+    assert "invented" in doc["description"]
+    assert "not real people" in doc["description"]
 
 
 def test_unusable_files_are_broken_as_described(tmp_path):

@@ -122,7 +122,8 @@ def _mornings(folder: Path, out: Path, *, tz: str, jobs, quiet: bool):
     mornings = folder / "mornings"
     manifest = mornings / "manifest.csv"
     return run_daily(mornings, out / "daily", manifest=manifest if manifest.is_file() else None,
-                     settings=DailySettings(tz=tz), jobs=jobs, progress=None if not quiet else False,
+                     settings=DailySettings(tz=tz), jobs=jobs,
+                     progress=None if not quiet else False,
                      command=["rrkit", "demo", str(out)])
 
 

@@ -31,7 +31,8 @@ _KINDS = ("diagnostic", "trend", "overview")
                    "start:60+300 (see docs/windows.md). Default: the whole recording.")
 @click.option("--clean", "method", default="drr", show_default=True, metavar="METHOD",
               help="diagnostic: artifact method (drr, median, mad, none).")
-@click.option("--psd", default="welch", show_default=True, type=click.Choice(["welch", "lomb", "ar"]),
+@click.option("--psd", default="welch", show_default=True,
+              type=click.Choice(["welch", "lomb", "ar"]),
               help="diagnostic: spectrum method.")
 @click.option("--unit", default="auto", show_default=True, type=click.Choice(["auto", "ms", "s"]),
               help="diagnostic: unit of the values in FILE.")
@@ -77,6 +78,7 @@ def command(file: Path, kind: str, output: Path | None, window: str | None, meth
 
 def _diagnostic(file: Path, out: Path, *, window, method, psd, unit) -> None:
     import rrkit
+
     from ..plots import recording_diagnostic
 
     rec = rrkit.read(file, unit=unit)

@@ -88,7 +88,8 @@ def _tachogram(ax, result, window_s) -> None:
         idx = np.flatnonzero(labels == name)
         if idx.size:
             ax.scatter(t[idx], raw.rr_ms[idx], s=42, color=colour, marker=marker,
-                       edgecolor="white", linewidth=0.5, zorder=3, label=f"{text} ({idx.size} intervals)")
+                       edgecolor="white", linewidth=0.5, zorder=3,
+                       label=f"{text} ({idx.size} intervals)")
     if window_s is not None:
         ax.axvspan(window_s[0], window_s[1], color=OKABE_ITO["sky"], alpha=0.12, lw=0,
                    label="analysis window")

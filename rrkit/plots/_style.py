@@ -13,7 +13,7 @@ from __future__ import annotations
 
 from pathlib import Path
 
-__all__ = ["OKABE_ITO", "LABEL_STYLE", "new_figure", "save", "DIVERGING_CMAP"]
+__all__ = ["DIVERGING_CMAP", "LABEL_STYLE", "OKABE_ITO", "new_figure", "save"]
 
 OKABE_ITO = {
     "black": "#000000",

@@ -7,7 +7,7 @@ import numpy as np
 from ..errors import InputError
 from ._style import DIVERGING_CMAP, OKABE_ITO, new_figure, save
 
-__all__ = ["athlete_trend", "squad_overview", "band_position"]
+__all__ = ["athlete_trend", "band_position", "squad_overview"]
 
 _NEEDED = ("subject", "date", "quality", "ln_rmssd", "ln_rmssd_7d")
 _LIMIT = 3.0  # colour scale saturates at 3 half-bands from the middle
@@ -175,8 +175,8 @@ def squad_overview(daily, path=None, *, phases=None, title: str | None = None, d
 
     Each cell is the athlete's 7-day ln-RMSSD mean relative to their normal band (see
     `band_position`): white inside the band's middle, blue above, red below; the band edges
-    are at -1 and +1 (the colours saturate at -3 and +3). Days whose 7-day mean is not defined are grey. A dot marks the days the
-    daily table flags as below the band.
+    are at -1 and +1 (the colours saturate at -3 and +3). Days whose 7-day mean is not
+    defined are grey. A dot marks the days the daily table flags as below the band.
 
     Parameters
     ----------
@@ -214,7 +214,8 @@ def squad_overview(daily, path=None, *, phases=None, title: str | None = None, d
     norm = mpl.colors.Normalize(vmin=-_LIMIT, vmax=_LIMIT)
     x = np.arange(len(days) + 1) - 0.5
     y = np.arange(len(subjects) + 1) - 0.5
-    mesh = ax.pcolormesh(x, y, np.clip(z, -_LIMIT, _LIMIT), cmap=cmap, norm=norm, edgecolors="white",
+    mesh = ax.pcolormesh(x, y, np.clip(z, -_LIMIT, _LIMIT), cmap=cmap, norm=norm,
+                         edgecolors="white",
                          linewidth=0.3)
     from matplotlib.patches import Patch
 

@@ -12,7 +12,7 @@ from datetime import datetime, timedelta
 
 import numpy as np
 
-__all__ = ["FORMATS", "render", "suffix", "gz_bytes"]
+__all__ = ["FORMATS", "gz_bytes", "render", "suffix"]
 
 #: format name -> (file suffix, description)
 FORMATS: dict[str, tuple[str, str]] = {

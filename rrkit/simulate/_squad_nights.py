@@ -19,7 +19,7 @@ from ..recording import Recording
 from . import _squad_files as files
 from . import _squad_story as story
 
-__all__ = ["TIME_ZONE", "WEARABLE", "write_nights", "night_recordings"]
+__all__ = ["TIME_ZONE", "WEARABLE", "night_recordings", "write_nights"]
 
 #: The squad's clocks (an invented club in Central Europe).
 TIME_ZONE = "Europe/Berlin"

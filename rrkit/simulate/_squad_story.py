@@ -21,8 +21,18 @@ from dataclasses import dataclass
 
 import numpy as np
 
-__all__ = ["Athlete", "ATHLETES", "PHASES", "Illness", "ILLNESSES", "day_state", "phase_of_day",
-           "training_day", "Unusable", "UNUSABLE"]
+__all__ = [
+    "ATHLETES",
+    "ILLNESSES",
+    "PHASES",
+    "UNUSABLE",
+    "Athlete",
+    "Illness",
+    "Unusable",
+    "day_state",
+    "phase_of_day",
+    "training_day",
+]
 
 
 @dataclass(frozen=True, slots=True)
@@ -169,7 +179,8 @@ def day_state(athlete: Athlete, day: int) -> tuple[float, float]:
     return float(ln), float(hr)
 
 
-def training_day(athlete_index: int, day: int, rng: np.random.Generator) -> tuple[int, float, float]:
+def training_day(athlete_index: int, day: int,
+                 rng: np.random.Generator) -> tuple[int, float, float]:
     """Sessions, minutes and session RPE (CR-10) of one athlete's training day.
 
     Session RPE x minutes is the training load in arbitrary units (Foster C et al. 2001,

@@ -54,7 +54,7 @@ from . import _squad_story as story
 from ._series import RestingSeries, simulate_rr
 from ._squad_nights import TIME_ZONE
 
-__all__ = ["SquadSettings", "SquadFiles", "generate_squad", "main"]
+__all__ = ["SquadFiles", "SquadSettings", "generate_squad", "main"]
 
 log = logging.getLogger("rrkit")
 
@@ -410,7 +410,7 @@ def _describe(s: SquadSettings) -> bytes:
                      for a in story.ATHLETES[: s.n_athletes]],
         "calendar": [{"phase": name, "first_day": day(lo), "last_day": day(min(hi, s.n_days - 1))}
                      for name, lo, hi in story.PHASES if lo < s.n_days],
-        "regatta_day": day(story.REGATTA_DAY) if story.REGATTA_DAY < s.n_days else None,
+        "regatta_day": day(story.REGATTA_DAY) if s.n_days > story.REGATTA_DAY else None,
         "morning_protocol": "supine, chest strap, 6 min: 1 min settling then the 5-min window",
         "lab_protocol": [p[0] for p in _LAB_PROTOCOL],
     }
