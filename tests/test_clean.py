@@ -117,6 +117,24 @@ def test_correction_restores_rmssd_and_sdnn(cls):
     assert abs(raw_rmssd) > 0.5, msg  # the artifacts really mattered
 
 
+@pytest.mark.parametrize("cls", CLASSES)
+def test_duration_after_correction(cls):
+    # source: simulated ground truth: missed, extra and compensated premature beats keep the
+    # beat grid, so the corrected duration equals the input's within one interval; lone long
+    # and short intervals shift the later beats (the simulator shifts them too), so there the
+    # corrected duration tracks the artifact-free one instead
+    base, rec, _ = planted(cls, 0.03, 90 + CLASSES.index(cls))
+    res = clean(rec)
+    change = res.extra["duration_change_s"]
+    assert change == pytest.approx(res.recording.duration_s - rec.duration_s)
+    one = np.median(rec.rr_ms) / 1000.0
+    if cls in ("missed", "extra", "ectopic"):
+        assert abs(change) <= one
+    else:
+        assert abs(res.recording.duration_s - base.duration_s) <= one
+        assert abs(change) > one  # the planted shift was undone
+
+
 @pytest.mark.parametrize("seed", [1, 2, 3])
 def test_clean_series_is_left_alone(seed):
     # source: simulated ground truth (no artifacts); at most 0.1% flagged by drr

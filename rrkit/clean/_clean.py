@@ -90,6 +90,13 @@ def clean(
     Each gap-free segment is classified on its own: no window, difference or spline reaches
     across a gap, and gap intervals stay gaps (labelled ``normal``, never counted).
 
+    Timing. Split missed beats, merged extra beats and re-timed premature beats keep the beats
+    around them where they were, so the corrected duration equals the input's. A lone long or
+    short interval (one that no compensatory interval balances) takes the spline value and the
+    beats after it move by the change until the next recording gap;
+    ``result.extra["duration_change_s"]`` reports the net change, and `CleanResult.window`
+    selects corrected intervals through ``origin``, so windows stay lined up with the input.
+
     Labels. ``ectopic``: both intervals around a premature or misplaced beat (the short one that
     ends at it and the compensatory one after it); both are corrected and both count as changed.
     ``missed``: an interval close to ``k`` times the local median (k = 2 in the paper; up to
@@ -172,8 +179,14 @@ def clean(
                         settings)
     log.info("cleaned %d intervals with %r: %.2f%% corrected, quality %s", summary.n_intervals,
              settings.method, summary.corrected_pct, summary.quality)
+    shift_s = out.duration_s - recording.duration_s
+    if recording.n_intervals and abs(shift_s) * 1000.0 > float(np.median(recording.rr_ms)):
+        log.info("correction changed the duration by %+.2f s: lone long or short intervals were "
+                 "re-valued and the beats after them moved (use CleanResult.window to line "
+                 "windows up with the input)", shift_s)
     return CleanResult(recording, labels, out, origin, changed, summary, settings,
-                       {"passes": passes, "converged": converged}, premature)
+                       {"passes": passes, "converged": converged, "duration_change_s": shift_s},
+                       premature)
 
 
 def _one_pass(rec: Recording, s: CleanSettings):
