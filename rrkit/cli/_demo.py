@@ -97,7 +97,7 @@ def command(outdir: Path, data: Path | None, jobs: int | None, quiet: bool) -> i
     lab = _lab(folder, out)
 
     prog.step(3, "nights: which window definition do the wearable's values resemble?")
-    agree = _nights(folder, out, tz=tz)
+    agree = _nights(folder, out, quiet=quiet)
 
     prog.step(4, "figures")
     load = pd.read_csv(folder / "training_load.csv") if (folder / "training_load.csv").is_file() \
@@ -146,7 +146,7 @@ def _lab(folder: Path, out: Path):
     return lab
 
 
-def _nights(folder: Path, out: Path, *, tz: str):
+def _nights(folder: Path, out: Path, *, quiet: bool = True):
     """Recompute the nights under every reference definition and rank them against the
     wearable's reported values; writes the ranking and the best combination's statistics."""
     import pandas as pd
@@ -166,7 +166,8 @@ def _nights(folder: Path, out: Path, *, tz: str):
     for path, (_line, row) in sorted(entries.items()):
         rec = read(path, subject=row["subject"])
         nights.append(rec.replace(start=row["start"], subject=row["subject"]))
-    search = search_definitions(reported, nights, metric="rmssd_ms", progress=False)
+    search = search_definitions(reported, nights, metric="rmssd_ms",
+                                progress=None if not quiet else False)
     agree_dir = out / "agreement"
     agree_dir.mkdir(parents=True, exist_ok=True)
     search.table.to_csv(agree_dir / "definition_search.csv", index=False)

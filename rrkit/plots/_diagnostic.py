@@ -67,9 +67,12 @@ def recording_diagnostic(result, path=None, *, window_s=None, psd: str = "welch"
         bits = [b for b in (rec.subject, rec.source and str(rec.source).rsplit("/", 1)[-1]) if b]
         title = " - ".join(bits) if bits else "recording"
     s = part.summary
-    fig.suptitle(f"{title}\n{s.artifact_pct:.1f}% artifacts, {s.corrected_pct:.1f}% corrected, "
-                 f"quality {s.quality}" + (f" ({s.quality_reason})" if s.quality_reason else ""),
-                 fontsize=12)
+    head = (f"{title}\n{s.artifact_pct:.1f}% artifacts, {s.corrected_pct:.1f}% corrected, "
+            f"quality {s.quality}" + (f" ({s.quality_reason})" if s.quality_reason else ""))
+    if s.caution or result.summary.caution:
+        head += ("\ncaution: frequent premature beats; rrkit does not diagnose, "
+                 "a clinician should see this recording")
+    fig.suptitle(head, fontsize=12)
     if path is not None:
         save(fig, path, dpi=dpi)
     return fig
