@@ -108,14 +108,16 @@ def make_season(
     """Write a season of morning RR files (one per subject per day) and a manifest CSV.
 
     Layout: ``root/files/<subject>/<subject>_<YYYY-MM-DD>.txt`` plus ``root/manifest.csv``
-    (``path, subject, start``) and, when ``n_nights`` > 0, ``root/nights/`` with its own
+    (``path, subject, start``), ``root/truth.csv`` (``path, rmssd_true_ms``: RMSSD of the
+    artifact-free series over the morning window, 60-360 s) and, when ``n_nights`` > 0,
+    ``root/nights/`` with its own
     ``manifest.csv``. Reused when ``root/params.json`` matches the parameters.
     """
     from rrkit.simulate import inject_artifacts, simulate_rr
 
     params = {"n_subjects": n_subjects, "n_days": n_days, "seconds": seconds,
               "artifact_rate": artifact_rate, "n_nights": n_nights, "night_s": night_s,
-              "seed": seed, "layout": 2}
+              "seed": seed, "layout": 3}
     stamp = root / "params.json"
     if stamp.is_file() and stamp.read_text() == _stamp(params):
         return _season_index(root)
@@ -125,6 +127,7 @@ def make_season(
     rng = np.random.default_rng(seed)
     day0 = datetime(2026, 3, 2, tzinfo=timezone.utc)
     rows = ["path,subject,start"]
+    truth_rows = ["path,rmssd_true_ms"]
     for s in range(n_subjects):
         subject = f"S{s + 1:02d}"
         base_rr = rng.uniform(900.0, 1200.0)
@@ -134,12 +137,15 @@ def make_season(
             rec = simulate_rr(duration_s=seconds, seed=rng,
                               mean_rr_ms=base_rr + rng.normal(0, 30.0),
                               resp_amp_ms=max(5.0, base_amp * rng.lognormal(0.0, 0.15)))
+            truth_rmssd = _window_rmssd(rec, 60.0, 360.0)
             if artifact_rate > 0:
                 rec, _ = inject_artifacts(rec, rates=artifact_rates(artifact_rate), seed=rng)
             rel = Path("files") / subject / f"{subject}_{start:%Y-%m-%d}.txt"
             write_rr_file(root / rel, rec)
             rows.append(f"{rel.as_posix()},{subject},{start.isoformat()}")
+            truth_rows.append(f"{rel.as_posix()},{truth_rmssd!r}")
     (root / "manifest.csv").write_text("\n".join(rows) + "\n")
+    (root / "truth.csv").write_text("\n".join(truth_rows) + "\n")
     if n_nights:
         (root / "nights").mkdir()
         nrows = ["path,subject,start"]
@@ -157,8 +163,16 @@ def make_season(
     return _season_index(root)
 
 
+def _window_rmssd(rec: Any, start_s: float, end_s: float) -> float:
+    """RMSSD (ms) of the intervals whose beats lie in ``[start_s, end_s]`` (Task Force 1996)."""
+    t = np.asarray(rec.beat_times_s)
+    rr = np.asarray(rec.rr_ms)[(t[:-1] >= start_s) & (t[1:] <= end_s)]
+    return float(np.sqrt(np.mean(np.diff(rr) ** 2)))
+
+
 def _season_index(root: Path) -> dict[str, Any]:
     files = sorted((root / "files").rglob("*.txt"))
     nights = sorted((root / "nights").glob("*.txt")) if (root / "nights").is_dir() else []
     return {"root": root, "files": files, "manifest": root / "manifest.csv",
+            "truth": root / "truth.csv",
             "nights": nights, "nights_manifest": root / "nights" / "manifest.csv"}

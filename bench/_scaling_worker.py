@@ -5,7 +5,10 @@ Used by the ``scaling`` case: a fresh process per size, so that the peak residen
 RSS is reported), one run under ``tracemalloc`` (peak of traced allocations, numpy buffers
 included), then the timed repetitions.
 
-    python -m bench._scaling_worker FILE --repeat 3
+    python -m bench._scaling_worker FILE [FILE...] --repeat 3
+
+Several files in one process (the ``--quick`` run, to save start-up time) share the process, so
+their peak RSS readings are cumulative.
 """
 
 from __future__ import annotations
@@ -24,23 +27,18 @@ def _rss_mb() -> float:
     return kb / 1024.0 if sys.platform != "darwin" else kb / 2**20
 
 
-def main(argv=None) -> int:
-    p = argparse.ArgumentParser(prog="python -m bench._scaling_worker")
-    p.add_argument("file")
-    p.add_argument("--repeat", type=int, default=3)
-    p.add_argument("--window-s", type=float, default=300.0)
-    a = p.parse_args(argv)
-
+def measure(path: str, repeat: int, window_s: float) -> dict:
+    """Time and memory of the pipeline on one file (see the module notes for the order)."""
     import rrkit
 
     from .cases import _rrkit
 
-    spec = _rrkit.sliding(a.window_s, a.window_s)
+    spec = _rrkit.sliding(window_s, window_s)
 
     def pipeline():
-        return _rrkit.analyze(rrkit.read(a.file), spec, clean="drr")
+        return _rrkit.analyze(rrkit.read(path), spec, clean="drr")
 
-    rss_imports = _rss_mb()
+    rss_before = _rss_mb()
     t0 = time.perf_counter()
     table = pipeline()
     first_s = time.perf_counter() - t0
@@ -54,16 +52,28 @@ def main(argv=None) -> int:
     tracemalloc.stop()
     gc.collect()
     times = []
-    for _ in range(max(1, a.repeat)):
+    for _ in range(max(1, repeat)):
         gc.collect()
         t0 = time.perf_counter()
         pipeline()
         times.append(time.perf_counter() - t0)
-    print(json.dumps({
-        "times_s": times, "first_run_s": first_s, "n_windows": n_windows,
-        "rss_after_imports_mb": rss_imports, "peak_rss_mb": rss_peak,
-        "tracemalloc_peak_mb": traced_peak / 2**20,
-    }))
+    return {"times_s": times, "first_run_s": first_s, "n_windows": n_windows,
+            "rss_after_imports_mb": rss_before, "peak_rss_mb": rss_peak,
+            "tracemalloc_peak_mb": traced_peak / 2**20}
+
+
+def main(argv=None) -> int:
+    p = argparse.ArgumentParser(prog="python -m bench._scaling_worker")
+    p.add_argument("files", nargs="+")
+    p.add_argument("--repeat", type=int, nargs="+", default=[3],
+                   help="repetitions, one for all files or one per file")
+    p.add_argument("--window-s", type=float, default=300.0)
+    a = p.parse_args(argv)
+    reps = a.repeat if len(a.repeat) == len(a.files) else [a.repeat[0]] * len(a.files)
+    import rrkit  # noqa: F401  (imports first, so that the first RSS reading includes them)
+
+    out = [measure(f, r, a.window_s) for f, r in zip(a.files, reps, strict=True)]
+    print(json.dumps(out))
     return 0
 
 

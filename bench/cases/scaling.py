@@ -42,10 +42,15 @@ def run(cfg) -> CaseResult:
     t_case = time.perf_counter()
     sizes = QUICK_SIZES if cfg.quick else SIZES
     per_size = {}
-    for n in sizes:
-        path = _input(cfg, n)
-        reps = cfg.reps(REPEATS.get(n, 3), 1)
-        out = run_worker("bench._scaling_worker", [str(path), "--repeat", str(reps)])
+    paths = [_input(cfg, n) for n in sizes]
+    reps = [cfg.reps(REPEATS.get(n, 3), 1) for n in sizes]
+    if cfg.quick:  # one process for all sizes: saves start-up time, memory readings cumulative
+        outs = run_worker("bench._scaling_worker", [*map(str, paths), "--repeat", *map(str, reps)])
+        res.notes.append("quick run: all sizes in one process (peak RSS readings cumulative)")
+    else:  # a fresh process per size: each peak RSS reading is that size's own
+        outs = [run_worker("bench._scaling_worker", [str(p), "--repeat", str(r)])[0]
+                for p, r in zip(paths, reps, strict=True)]
+    for n, out in zip(sizes, outs, strict=True):
         timing = Timing(out["times_s"])
         res.timings[f"{n:>9,d} beats"] = timing
         per_size[n] = {**out, "median_s": timing.median_s, "min_s": timing.min_s,
