@@ -288,3 +288,11 @@ def test_spreadsheet_binary_hint(tmp_path):
     path.write_bytes(b"PK\x03\x04\x14\x00\x06\x00\x08\x00\x00\x00!\x00")
     with pytest.raises(InputError, match="export it as CSV"):
         read(path)
+
+
+def test_preamble_with_numbers_before_header(tmp_path):
+    text = "Strap export 2026-03-01 07:00\nDevice 4711\nRR interval (ms)\n800\n810\n790\n805\n"
+    rec = read(_write(tmp_path / "pre.txt", text))
+    assert rec.rr_ms.tolist() == [800, 810, 790, 805]
+    assert rec.info.column == "RR interval (ms)"  # a one-column header with spaces
+    assert rec.info.extra["n_preamble_lines"] == 2

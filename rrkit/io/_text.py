@@ -11,8 +11,9 @@ Rules (each recorded in `TextTable.extra`):
 - UTF-8 (with or without BOM) first; files that are not valid UTF-8 are read as cp1252.
 - ``\\r\\n``, ``\\r`` and ``\\n`` all end a line; line numbers count every physical line.
 - ``#`` starts a comment (whole line or trailing); blank lines are skipped.
-- Lines before the first line holding a number (or an ISO 8601 date) are header lines; the last
-  of them names the columns when it has as many fields as the data rows.
+- The data start at the first line that holds a number (or an ISO 8601 date) and is followed by
+  lines that do too; lines before are header lines, and the last of them names the columns when
+  it has as many fields as the data rows.
 - Separator: ``;`` if the data rows hold one, else tab, else ``,``, else runs of spaces, else a
   single column. A single column whose rows all look like ``812,5`` uses a decimal comma. With
   ``;``, tab or space separators a ``,`` inside numbers is a decimal comma.
@@ -204,6 +205,38 @@ def _choose_separator(rows: list[str], header: str | None) -> tuple[str | None, 
     return sep, "."
 
 
+_WORD_RE = re.compile(r"[A-Za-z]{2,}")
+_PREAMBLE_MAX_ROWS = 30
+
+
+def _header_like(line: str) -> bool:
+    """Words and at most 20 % digits: ``RR interval (ms)``, ``time_s;rr_ms``, not ``8l5``."""
+    alnum = [c for c in line if c.isalnum()]
+    return bool(_WORD_RE.search(line)) and sum(c.isdigit() for c in alnum) <= 0.2 * len(alnum)
+
+
+def _first_data_row(content: list[str]) -> int:
+    """Index of the first data row (``len(content)`` when no row holds a value).
+
+    The data start at the first row holding a value, except for a preamble with stray numbers
+    (``Strap export 2026-03-01``, ``Device 4711``): when every row before the first value-free
+    row holds words, that row looks like a header, and value rows follow it, the data start
+    after it. Rows of plain numbers are never skipped this way, so data are not dropped.
+    """
+    n = len(content)
+    first = next((i for i, row in enumerate(content) if _holds_value(row)), n)
+    for j in range(first + 1, min(first + _PREAMBLE_MAX_ROWS, n)):
+        if _holds_value(content[j]):
+            if not _WORD_RE.search(content[j]):
+                return first  # a plain data row: this is the data block
+            continue
+        follows = content[j + 1:j + 4]
+        if _header_like(content[j]) and follows and all(_holds_value(r) for r in follows):
+            return j + 1
+        return first
+    return first
+
+
 def _split_columns(data: list[str], sep: str | None, data_lines: np.ndarray,
                    path: str) -> list[list[str]]:
     """Columns of tokens; InputError at the first row whose field count differs from row 1."""
@@ -276,9 +309,7 @@ def load_table(path: str | os.PathLike[str], *, sep: str | None = None,
     if not content:
         raise InputError("the file holds only comments and blank lines, expected beat data",
                          path=path_s)
-    first = 0
-    while first < len(content) and not _holds_value(content[first]):
-        first += 1
+    first = _first_data_row(content)
     if first == len(content):
         raise InputError(
             f"no numbers found (line {numbers[0]}: {content[0][:60]!r}), expected beat data",
