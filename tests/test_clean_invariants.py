@@ -9,7 +9,7 @@ result whose iteration converged is left alone when cleaned again.
 from __future__ import annotations
 
 import numpy as np
-from hypothesis import HealthCheck, given, settings
+from hypothesis import HealthCheck, assume, given, settings
 from hypothesis import strategies as st
 
 from rrkit import Recording, clean
@@ -94,11 +94,11 @@ def test_duration_kept_within_one_interval(data):
 def test_cleaning_a_converged_result_changes_nothing(data, method):
     rec, _ = data
     res = clean(rec, method=method, iterate=True)
-    if res.extra["converged"]:
-        again = clean(res, method=method)
-        assert not again.changed.any()
-        assert (again.labels == "normal").all()
-        np.testing.assert_array_equal(again.recording.rr_ms, res.recording.rr_ms)
+    assume(res.extra["converged"])  # the bounded iteration settles on almost every input
+    again = clean(res, method=method)
+    assert not again.changed.any()
+    assert (again.labels == "normal").all()
+    np.testing.assert_array_equal(again.recording.rr_ms, res.recording.rr_ms)
 
 
 @_common

@@ -113,7 +113,9 @@ class CleanResult:
     settings : Any
         The frozen settings object that produced this result (method, thresholds, strategy).
     extra : Mapping
-        Anything else the run records (number of passes).
+        Anything else the run records: ``passes`` (classification passes run),
+        ``converged`` (the last pass found nothing more), ``duration_change_s`` (corrected minus
+        input duration, s).
     ectopic_beats : numpy.ndarray of int
         Input beats judged premature (or misplaced); each ends one ``ectopic`` interval and
         starts the next. ``summary.ectopic_per_hour`` counts these.
