@@ -174,8 +174,9 @@ class CleanResult:
         eb = self.ectopic_beats
         eb = eb[(eb >= lo) & (eb < max(hi, lo))] - lo
         summary = summarize(labels, changed, inp.gaps, inp.rr_ms, eb.size, self.settings)
-        return CleanResult(inp, labels, rec, origin, changed, summary, self.settings,
-                           dict(self.extra), eb)
+        extra = dict(self.extra)
+        extra["duration_change_s"] = rec.duration_s - inp.duration_s
+        return CleanResult(inp, labels, rec, origin, changed, summary, self.settings, extra, eb)
 
     def to_frame(self):
         """One row per input interval: ``index, time_s, rr_ms, label, rr_corrected_ms``.
