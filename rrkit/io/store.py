@@ -33,8 +33,16 @@ import numpy as np
 from .._version import __version__
 from ..errors import InputError
 
-__all__ = ["STORE_FORMAT", "STORE_VERSION", "write_store", "read_store_index",
-           "read_store_recording", "read_store_windows", "read_store_daily", "recording_key"]
+__all__ = [
+    "STORE_FORMAT",
+    "STORE_VERSION",
+    "read_store_daily",
+    "read_store_index",
+    "read_store_recording",
+    "read_store_windows",
+    "recording_key",
+    "write_store",
+]
 
 STORE_FORMAT = "rrkit-store"
 STORE_VERSION = 1
@@ -116,11 +124,12 @@ def write_store(
     rec_dtype = np.dtype([*((k, text) for k in _REC_TEXT), ("used_in_daily", np.int8),
                           ("t0_s", np.float64), ("corrected_t0_s", np.float64),
                           *((k, np.int64) for k in _REC_INT)])
-    table = np.zeros(n, dtype=rec_dtype)
-    raw_parts, cor_parts, win_rows = [], [], []
     keys: list[str] = []
     seen: set[str] = set()
-    pos = {"interval": 0, "corrected": 0, "window": 0}
+    cols: dict[str, list] = {k: [] for k in rec_dtype.names}
+    raw_t, raw_rr, raw_gap, raw_lab, raw_chg = [], [], [], [], []
+    cor_t, cor_rr, cor_gap, cor_org = [], [], [], []
+    n_raw, n_cor, win_rows = [], [], []
     for i, rec in enumerate(recs):
         a = rec["arrays"]
         key = recording_key(rec.get("start") or rec.get("date"), rec["sha256"])
@@ -130,32 +139,65 @@ def write_store(
             key = f"{base}_{k}"
         seen.add(key)
         keys.append(key)
-        raw_t = np.asarray(a["raw_beat_times_s"], dtype=np.float64)
-        cor_t = np.asarray(a["corrected_beat_times_s"], dtype=np.float64)
-        n_raw = int(np.asarray(a["raw_rr_ms"]).size)
-        n_cor = int(np.asarray(a["corrected_rr_ms"]).size)
+        rt = np.asarray(a["raw_beat_times_s"], dtype=np.float64)
+        ct = np.asarray(a["corrected_beat_times_s"], dtype=np.float64)
         rows = list(rec.get("rows") or [])
-        row = table[i]
-        for name in _REC_TEXT:
-            if name == "key":
-                value = key
-            elif name in ("read_info", "clean_summary", "warnings"):
-                value = _json(rec.get(name) or ([] if name == "warnings" else {}))
-            else:
-                value = str(rec.get(name) or "")
-            row[name] = value
-        row["used_in_daily"] = 1 if rec.get("used_in_daily") else 0
-        row["t0_s"] = raw_t[0] if raw_t.size else np.nan
-        row["corrected_t0_s"] = cor_t[0] if cor_t.size else np.nan
-        for part, size in (("interval", n_raw), ("corrected", n_cor), ("window", len(rows))):
-            row[f"{part}_start"] = pos[part]
-            pos[part] += size
-            row[f"{part}_stop"] = pos[part]
-        raw_parts.append((i, raw_t[1:], a["raw_rr_ms"], a["raw_gaps"], a["labels"],
-                          a["changed"]))
-        cor_parts.append((i, cor_t[1:], a["corrected_rr_ms"], a["corrected_gaps"],
-                          a["origin"]))
+        cols["key"].append(key)
+        for name in ("subject", "source", "sha256", "start", "date"):
+            cols[name].append(str(rec.get(name) or ""))
+        cols["read_info"].append(_json(rec.get("read_info") or {}))
+        cols["clean_summary"].append(_json(rec.get("clean_summary") or {}))
+        cols["warnings"].append(_json(list(rec.get("warnings") or [])))
+        cols["used_in_daily"].append(1 if rec.get("used_in_daily") else 0)
+        cols["t0_s"].append(rt[0] if rt.size else np.nan)
+        cols["corrected_t0_s"].append(ct[0] if ct.size else np.nan)
+        raw_t.append(rt[1:])
+        raw_rr.append(np.asarray(a["raw_rr_ms"], dtype=np.float64))
+        raw_gap.append(np.asarray(a["raw_gaps"], dtype=bool))
+        raw_lab.append(np.asarray(a["labels"], dtype=str))
+        raw_chg.append(np.asarray(a["changed"], dtype=bool))
+        cor_t.append(ct[1:])
+        cor_rr.append(np.asarray(a["corrected_rr_ms"], dtype=np.float64))
+        cor_gap.append(np.asarray(a["corrected_gaps"], dtype=bool))
+        cor_org.append(np.asarray(a["origin"], dtype=np.int64))
+        n_raw.append(raw_rr[-1].size)
+        n_cor.append(cor_rr[-1].size)
         win_rows.extend({"recording": i, **r} for r in rows)
+    n_win = np.bincount([r["recording"] for r in win_rows], minlength=n) if win_rows else \
+        np.zeros(n, dtype=np.int64)
+    for part, sizes in (("interval", n_raw), ("corrected", n_cor), ("window", n_win)):
+        stop = np.cumsum(np.asarray(sizes, dtype=np.int64))
+        cols[f"{part}_stop"] = stop
+        cols[f"{part}_start"] = stop - np.asarray(sizes, dtype=np.int64)
+    table = np.zeros(n, dtype=rec_dtype)
+    for name in rec_dtype.names:
+        if n:
+            table[name] = cols[name]
+
+    def cat(parts, dtype):
+        return np.concatenate(parts).astype(dtype, copy=False) if parts else np.zeros(0, dtype)
+
+    ids = np.repeat(np.arange(n, dtype=np.int32), np.asarray(n_raw, dtype=np.int64))
+    labels = cat(raw_lab, str)
+    width = max(1, int(labels.dtype.itemsize // 4)) if labels.size else 1
+    intervals = np.zeros(ids.size, dtype=[
+        ("recording", np.int32), ("time_s", np.float64), ("rr_ms", np.float64),
+        ("gap", np.bool_), ("label", f"S{width}"), ("changed", np.bool_)])
+    intervals["recording"] = ids
+    intervals["time_s"] = cat(raw_t, np.float64)
+    intervals["rr_ms"] = cat(raw_rr, np.float64)
+    intervals["gap"] = cat(raw_gap, bool)
+    intervals["label"] = labels.astype(f"S{width}")
+    intervals["changed"] = cat(raw_chg, bool)
+    cids = np.repeat(np.arange(n, dtype=np.int32), np.asarray(n_cor, dtype=np.int64))
+    corrected = np.zeros(cids.size, dtype=[
+        ("recording", np.int32), ("time_s", np.float64), ("rr_ms", np.float64),
+        ("gap", np.bool_), ("origin", np.int64)])
+    corrected["recording"] = cids
+    corrected["time_s"] = cat(cor_t, np.float64)
+    corrected["rr_ms"] = cat(cor_rr, np.float64)
+    corrected["gap"] = cat(cor_gap, bool)
+    corrected["origin"] = cat(cor_org, np.int64)
 
     with atomic_path(path, fsync=fsync) as tmp, h5py.File(tmp, "w", track_order=True) as h5:
         h5.attrs["format"] = STORE_FORMAT
@@ -165,51 +207,12 @@ def write_store(
         h5.attrs["settings_sha256"] = hashlib.sha256(settings_text.encode()).hexdigest()
         h5.attrs["n_recordings"] = n
         h5.create_dataset("recordings", data=table)
-        h5.create_dataset("intervals", data=_intervals(raw_parts))
-        h5.create_dataset("corrected", data=_corrected(cor_parts))
+        h5.create_dataset("intervals", data=intervals)
+        h5.create_dataset("corrected", data=corrected)
         h5.create_dataset("windows", data=_rows_array(win_rows))
         if daily is not None:
             _write_table(h5.create_group("daily", track_order=True), daily)
     return keys
-
-
-def _intervals(parts) -> np.ndarray:
-    labels = [np.asarray(p[4], dtype=str) for p in parts]
-    width = max([1, *(int(x.dtype.itemsize // 4) for x in labels if x.size)])
-    dtype = np.dtype([("recording", np.int32), ("time_s", np.float64), ("rr_ms", np.float64),
-                      ("gap", np.bool_), ("label", f"S{width}"), ("changed", np.bool_)])
-    total = sum(int(np.asarray(p[2]).size) for p in parts)
-    out = np.zeros(total, dtype=dtype)
-    at = 0
-    for (i, t, rr, gaps, _, changed), lab in zip(parts, labels, strict=True):
-        m = int(np.asarray(rr).size)
-        sl = out[at:at + m]
-        sl["recording"] = i
-        sl["time_s"] = t
-        sl["rr_ms"] = rr
-        sl["gap"] = gaps
-        sl["label"] = lab.astype(f"S{width}")
-        sl["changed"] = changed
-        at += m
-    return out
-
-
-def _corrected(parts) -> np.ndarray:
-    dtype = np.dtype([("recording", np.int32), ("time_s", np.float64), ("rr_ms", np.float64),
-                      ("gap", np.bool_), ("origin", np.int64)])
-    total = sum(int(np.asarray(p[2]).size) for p in parts)
-    out = np.zeros(total, dtype=dtype)
-    at = 0
-    for i, t, rr, gaps, origin in parts:
-        m = int(np.asarray(rr).size)
-        sl = out[at:at + m]
-        sl["recording"] = i
-        sl["time_s"] = t
-        sl["rr_ms"] = rr
-        sl["gap"] = gaps
-        sl["origin"] = origin
-        at += m
-    return out
 
 
 def _rows_array(rows: list[Mapping[str, Any]]) -> np.ndarray:
