@@ -138,9 +138,10 @@ def test_no_detectable_beats(tmp_path):
 def test_noise_warns(tmp_path, rng):
     csv = tmp_path / "noise.csv"
     csv.write_text("ecg\n" + "\n".join(f"{v:.6f}" for v in rng.normal(size=30 * FS_HZ)) + "\n")
-    with pytest.warns(QualityWarning, match="match the median beat"):
+    with pytest.warns(QualityWarning, match="match the median beat") as caught:
         rec = read(csv, fs=FS_HZ)
     assert rec.info.extra["detection_quality"] < 0.7
+    assert caught[0].filename == __file__  # the warning points at the caller of read()
 
 
 def test_ecg_needs_fs_and_a_long_enough_signal(tmp_path, ecg_mv):

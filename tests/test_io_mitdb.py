@@ -116,3 +116,5 @@ def test_fs_disagreeing_with_header(mitdb100):
         read(Path(f"{mitdb100}.hea"), fs=250)
     with pytest.raises(InputError, match="not a channel of this record"):
         read(Path(f"{mitdb100}.hea"), column="V1")
+    with pytest.raises(InputError, match="read with kind='annotations'"):
+        read(Path(f"{mitdb100}.atr"), kind="peaks")

@@ -76,18 +76,17 @@ def _unusable(sig: np.ndarray, fs: float) -> tuple[np.ndarray, dict[str, Any]]:
     bad = nan.copy()
     min_len = max(round(_FLAT_MIN_S * fs), 2)
     starts, stops = _runs(same)
-    flat_samples = 0
-    for a, b in zip(starts, stops, strict=True):
-        if b - a + 1 >= min_len:  # b - a equal steps span b - a + 1 samples
-            bad[a:b + 1] = True
-            flat_samples += b - a + 1
+    long_run = (stops - starts + 1) >= min_len  # b - a equal steps span b - a + 1 samples
+    flat_samples = int((stops - starts + 1)[long_run].sum())
+    for a, b in zip(starts[long_run], stops[long_run], strict=True):
+        bad[a:b + 1] = True
     rail = (np.abs(filled - hi) <= tol) | (np.abs(filled - lo) <= tol)
     clipped_pct = 100.0 * float(np.mean(rail & ~nan & np.concatenate(([False], same))))
     pad = round(_PAD_S * fs)
-    if pad and bad.any():
-        s2, e2 = _runs(bad)
-        for a, b in zip(s2, e2, strict=True):
-            bad[max(a - pad, 0):min(b + pad, n)] = True
+    if pad and bad.any():  # widen every bad stretch by `pad` samples each side (running sum)
+        c = np.concatenate(([0], np.cumsum(bad, dtype=np.int64)))
+        idx = np.arange(n)
+        bad = (c[np.minimum(idx + pad + 1, n)] - c[np.maximum(idx - pad, 0)]) > 0
     return bad, {"flat_s": flat_samples / fs, "missing_s": float(nan.sum()) / fs,
                  "clipped_pct": clipped_pct}
 
@@ -245,7 +244,7 @@ def detect_beats(signal, *, fs_hz: float | None, detector: str = DEFAULT_DETECTO
         warnings.warn(
             f"{path or what}: weak ECG: {quality:.0%} of {peaks.size} detected beats match the "
             f"median beat (r >= {_MATCH_R}), {usable:.0%} of the signal usable; check the "
-            "beats before trusting the intervals", QualityWarning, stacklevel=4)
+            "beats before trusting the intervals", QualityWarning, stacklevel=5)
     return peaks, gaps, extra
 
 

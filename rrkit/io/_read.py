@@ -156,6 +156,9 @@ def read(
         if fmt == "wfdb":  # record name given: use its reference annotations
             p = Path(str(p.with_suffix("")) + ".atr")
         return read_wfdb_annotations(str(p), fs_hz=fs, subject=subject, kind_decided_by=by)
+    if fmt == "annotations":
+        raise InputError(f"WFDB annotation files are read with kind='annotations' (got "
+                         f"kind={kind!r})", path=p)
     if fmt in ("edf", "wfdb"):
         if kind not in ("auto", "ecg"):
             raise InputError(f"{fmt.upper()} files hold signals; read them with kind='ecg' "
