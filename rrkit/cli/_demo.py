@@ -308,7 +308,7 @@ def _summary(run, *, lab, agree, ectopy, figures, out, meta, folder) -> str:
         lines.append("  nobody")
     episodes = below_band_episodes(table)
     long_runs = {s: [r for r in runs if r[0] != r[1]] for s, runs in episodes.items()}
-    lines.append("Earlier runs of 7-day ln-RMSSD below the band (first - last day):")
+    lines.append("Every run of 7-day ln-RMSSD below the band this season (first - last day):")
     for s in sorted(long_runs):
         if long_runs[s]:
             lines.append(f"  {s}: " + "; ".join(f"{a} - {b}" for a, b in long_runs[s]))
@@ -317,7 +317,11 @@ def _summary(run, *, lab, agree, ectopy, figures, out, meta, folder) -> str:
     errs = run.errors
     lines.append(f"Files that failed ({len(errs)}), see {run.outputs['errors_csv']}:")
     for r in errs.itertuples(index=False):
-        lines.append(f"  {r.path}: {r.error_type}: {r.message}")
+        msg = str(r.message)
+        full = str(folder / "mornings" / str(r.path))
+        if msg.startswith(full):  # the message names the file again: keep the rest
+            msg = msg[len(full):].lstrip(":, ")
+        lines.append(f"  {r.path}: {msg}")
     rej = table[table["quality"] == "rejected"]
     if len(rej):
         lines.append(f"Mornings rejected after reading ({len(rej)}):")
