@@ -63,7 +63,7 @@ def name_hints(name: str) -> dict[str, str | None]:
         role = "timestamp"
     elif ws & _RR_WORDS:
         role = "rr"
-    elif ws & _ECG_WORDS:
+    elif ws & _ECG_WORDS or any(w.startswith(("ecg", "ekg")) for w in ws):
         role = "ecg"
     elif ws & _SYMBOL_WORDS:
         role = "symbol"

@@ -231,19 +231,45 @@ def read_table(path: str, *, kind: str, unit: str, fs_hz: float | None, column,
     beat_symbols = None
     if symbols is not None:  # each row's symbol labels the beat ending its interval
         beat_symbols = np.concatenate(([""], symbols))
-    if lay["ts_col"] is not None:
-        ts, ts_start, how = _timestamps_kept(table, lay, keep)
+    clock = _relative_clock(table, lay, col, keep) if lay["ts_col"] is None else None
+    if lay["ts_col"] is not None or clock is not None:
+        if clock is None:
+            ts, ts_start, how = _timestamps_kept(table, lay, keep)
+        else:
+            ts, how = clock
+            ts_start = None
         extra["timestamps"] = how
         rr_ms, gaps, beat_symbols, n_breaks, lost_s = _insert_breaks(
             rr_ms, ts, lines, break_s=break_s, path=table.path, beat_symbols=beat_symbols)
         extra["n_breaks"] = n_breaks
         extra["break_time_s"] = lost_s
         extra["break_s"] = break_s
-        start = ts_start - timedelta(milliseconds=float(rr_ms[0]))
+        if ts_start is not None:
+            start = ts_start - timedelta(milliseconds=float(rr_ms[0]))
     info = ReadInfo(kind="rr", kind_decided_by=kind_by, unit=use_unit, unit_decided_by=unit_by,
                     fs_hz=fs_hz, column=name, extra=extra)
     return Recording.from_rr(rr_ms, start=start, subject=subject, source=table.path, info=info,
                              gaps=gaps, beat_symbols=beat_symbols)
+
+
+def _relative_clock(table, lay, value_col, keep):
+    """(seconds, how) from a numeric time column in s or ms beside RR values, else None.
+
+    A column named as a time in seconds or milliseconds (``time_s``, ``t (ms)``) stamps each
+    row on the recording's own clock: it shows breaks just as absolute timestamps do.
+    """
+    for k, typ in enumerate(lay["types"]):
+        role = lay["roles"][k]
+        if k == value_col or typ != "number" or role["role"] != "peaks":
+            continue
+        if role["unit"] not in ("s", "ms"):
+            continue
+        values = parse_numbers(table, k, what="a time")
+        if keep is not None:
+            values = values[keep]
+        scale = 1.0 if role["unit"] == "s" else 1e-3
+        return values * scale, f"times in {role['unit']} in column {table.names[k]!r}"
+    return None
 
 
 def _timestamps_kept(table, lay, keep):
