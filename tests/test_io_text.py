@@ -302,7 +302,8 @@ def test_relative_time_column_shows_breaks(tmp_path):
     # time_s stamps the end of each interval on the recording's clock; 20 s missing after 2.4 s
     text = "time_s,rr_ms\n0.8,800\n1.6,800\n2.4,800\n23.2,800\n24.0,800\n"
     rec = read(_write(tmp_path / "rel.csv", text))
-    assert rec.info.column == "rr_ms" and rec.start is None
+    assert rec.info.column == "rr_ms"
+    assert rec.start is None
     # hand-computed: 23.2 - 2.4 = 20.8 s, of which the 800 ms interval covers 0.8 s: 20 s gap
     assert rec.rr_ms.tolist() == pytest.approx([800, 800, 800, 20000, 800, 800])
     assert rec.gaps.tolist() == [False, False, False, True, False, False]
