@@ -236,7 +236,7 @@ class Sliding(WindowSpec):
                 n -= 1
         else:
             n = math.floor((total - length) / step + _EPS) + 1 if total + _EPS >= length else 0
-        width = max(len(str(int(math.floor(total / step + _EPS)) + 1)), 3)  # same as partial
+        width = max(len(str(math.floor(total / step + _EPS) + 1)), 3)  # same as partial
         out = []
         for k in range(n):
             start = span[0] + k * step

@@ -115,6 +115,19 @@ def test_smoothness_priors_cutoff_below_lf():
     assert np.std(smoothness_priors_detrend(drop, 500.0)[mid]) < 0.2 * np.std(drop[mid])
 
 
+def test_spline_equals_scipy_cubicspline(rng):
+    # rrkit's overhead-free spline against scipy.interpolate.CubicSpline (not-a-knot)
+    from scipy.interpolate import CubicSpline
+
+    from rrkit.metrics._spline import spline_on_grid
+
+    for n in (3, 4, 5, 17, 300):
+        x = np.cumsum(rng.uniform(0.4, 1.6, n))
+        y = 1000 + 50 * rng.standard_normal(n)
+        grid = np.linspace(x[0], x[-1], 4 * n)
+        assert np.allclose(spline_on_grid(x, y, grid), CubicSpline(x, y)(grid), rtol=0, atol=1e-9)
+
+
 def test_spline_resampling_on_4hz_grid():
     rec = simulate_rr(200, seed=1)
     x = resample(rec.interval_times_s, rec.rr_ms, 4.0)

@@ -9,6 +9,7 @@ kernels (`time`, `spectral`, `nonlinear`) are pure functions of numpy arrays.
 from __future__ import annotations
 
 from dataclasses import dataclass, field
+from functools import lru_cache
 from types import MappingProxyType
 from typing import Any
 
@@ -130,10 +131,15 @@ def _run_bounds(gaps: np.ndarray) -> list[tuple[int, int]]:
     return [(int(a), int(b)) for a, b in zip(edges[::2], edges[1::2], strict=True)]
 
 
+@lru_cache(maxsize=1)
+def _default_settings() -> MetricsSettings:
+    return MetricsSettings()
+
+
 def merge_settings(settings, domains, psd, bands) -> MetricsSettings:
     """``settings`` (default `MetricsSettings()`) with ``domains``, ``psd``, ``bands`` applied."""
     if settings is None:
-        settings = MetricsSettings()
+        settings = _default_settings()
     elif not isinstance(settings, MetricsSettings):
         raise InputError(f"settings must be a MetricsSettings; got {type(settings).__name__}")
     changes: dict[str, Any] = {}

@@ -40,7 +40,6 @@ __all__ = [
 NONLINEAR_KEYS = ("sd1_ms", "sd2_ms", "sd1_sd2", "dfa_alpha1", "dfa_alpha2", "sampen")
 
 _NAN = float("nan")
-_SQRT2 = math.sqrt(2.0)
 
 
 def poincare(segments: list[np.ndarray]) -> tuple[float, float]:
@@ -49,17 +48,28 @@ def poincare(segments: list[np.ndarray]) -> tuple[float, float]:
     ``SD1 = SD((RR[n+1] - RR[n]) / sqrt 2)`` and ``SD2 = SD((RR[n+1] + RR[n]) / sqrt 2)``, both
     with ddof=1 (Brennan et al. 2001). NaN with fewer than two pairs.
     """
-    d = [np.diff(s) for s in segments if s.size > 1]
-    if not d or sum(x.size for x in d) < 2:
+    runs = [s for s in segments if s.size > 1]
+    if not runs:
         return _NAN, _NAN
-    diff = np.concatenate(d) / _SQRT2
-    summ = np.concatenate([s[1:] + s[:-1] for s in segments if s.size > 1]) / _SQRT2
-    return float(diff.std(ddof=1)), float(summ.std(ddof=1))
+    if len(runs) == 1:
+        x = runs[0]
+        diff, summ = x[1:] - x[:-1], x[1:] + x[:-1]
+    else:
+        diff = np.concatenate([s[1:] - s[:-1] for s in runs])
+        summ = np.concatenate([s[1:] + s[:-1] for s in runs])
+    k = diff.size
+    if k < 2:
+        return _NAN, _NAN
+    dc = diff - float(diff.sum()) / k
+    sc = summ - float(summ.sum()) / k
+    # SD(v / sqrt 2, ddof=1) = sqrt(sum((v - mean)**2) / (2 (k - 1)))
+    return math.sqrt(float(dc @ dc) / (2.0 * (k - 1))), math.sqrt(float(sc @ sc) / (2.0 * (k - 1)))
 
 
-@lru_cache(maxsize=256)
+@lru_cache(maxsize=512)
 def _boxes(lengths: tuple[int, ...], scales: tuple[int, ...]):
-    """Start index and scale index of every non-overlapping box, runs laid end to end."""
+    """Every non-overlapping box of the runs laid end to end: start, end, scale index, size,
+    centre and ``sum (k - centre)**2``; plus the box count per scale. Cached by run lengths."""
     sc = np.asarray(scales, dtype=np.int64)
     starts, which = [], []
     offset = 0
@@ -72,9 +82,18 @@ def _boxes(lengths: tuple[int, ...], scales: tuple[int, ...]):
             starts.append(offset + j * sc[idx])
             which.append(idx)
         offset += n
-    if not starts:
-        return np.zeros(0, np.int64), np.zeros(0, np.int64)
-    return np.concatenate(starts), np.concatenate(which)
+    if starts:
+        start = np.concatenate(starts)
+        idx = np.concatenate(which)
+    else:
+        start = np.zeros(0, np.int64)
+        idx = np.zeros(0, np.int64)
+    size = sc[idx].astype(float)
+    out = (start, start + sc[idx], idx, size, start + (size - 1.0) / 2.0,
+           size * (size * size - 1.0) / 12.0, np.bincount(idx, minlength=sc.size))
+    for arr in out:
+        arr.flags.writeable = False
+    return out
 
 
 def dfa_fluctuations(segments: list[np.ndarray], scales) -> tuple[np.ndarray, np.ndarray]:
@@ -99,28 +118,25 @@ def dfa_fluctuations(segments: list[np.ndarray], scales) -> tuple[np.ndarray, np
     segs = [s for s in segments if s.size]
     if not segs:
         return np.full(sc.size, _NAN), np.zeros(sc.size, np.int64)
-    mean = float(np.concatenate(segs).mean())
-    prof = np.concatenate([np.cumsum(s - mean) for s in segs])
-    starts, which = _boxes(tuple(s.size for s in segs), tuple(int(v) for v in sc))
-    n_boxes = np.bincount(which, minlength=sc.size)
+    total = sum(x.size for x in segs)
+    mean = float(sum(float(x.sum()) for x in segs)) / total
+    prof = np.cumsum(segs[0] - mean) if len(segs) == 1 else \
+        np.concatenate([np.cumsum(x - mean) for x in segs])
+    starts, ends, which, size, centre, stt, n_boxes = _boxes(
+        tuple(x.size for x in segs), tuple(int(v) for v in sc))
     if starts.size == 0:
         return np.full(sc.size, _NAN), n_boxes
-    k = np.arange(prof.size, dtype=float)
-    c_y = np.concatenate(([0.0], np.cumsum(prof)))
-    c_ky = np.concatenate(([0.0], np.cumsum(k * prof)))
-    c_yy = np.concatenate(([0.0], np.cumsum(prof * prof)))
-    n = sc[which].astype(float)
-    ends = starts + sc[which]
-    sy = c_y[ends] - c_y[starts]
-    sky = c_ky[ends] - c_ky[starts]
-    syy = c_yy[ends] - c_yy[starts]
-    centre = starts + (n - 1.0) / 2.0
-    sty = sky - centre * sy                      # sum of (k - centre) * y
-    stt = n * (n * n - 1.0) / 12.0               # sum of (k - centre)**2
-    ss = syy - sy * sy / n - sty * sty / stt     # residual sum of squares of the line fit
-    ms = np.maximum(ss, 0.0) / n
+    # cumulative sums of y, k y and y**2 (one pass), then every box's sums by differences
+    cum = np.zeros((3, prof.size + 1))
+    cum[0, 1:] = prof
+    cum[1, 1:] = prof * np.arange(prof.size)
+    cum[2, 1:] = prof * prof
+    np.cumsum(cum, axis=1, out=cum)
+    sy, sky, syy = cum[:, ends] - cum[:, starts]
+    sty = sky - centre * sy                          # sum of (k - centre) * y
+    ss = syy - sy * sy / size - sty * sty / stt      # residual sum of squares of the line fit
     with np.errstate(invalid="ignore", divide="ignore"):
-        f2 = np.bincount(which, weights=ms, minlength=sc.size) / n_boxes
+        f2 = np.bincount(which, weights=np.maximum(ss, 0.0) / size, minlength=sc.size) / n_boxes
     return np.sqrt(f2), n_boxes
 
 
@@ -222,7 +238,8 @@ def sample_entropy(segments: list[np.ndarray], *, m: int = 2, r: float,
     -----
     Sorted count: templates are sorted by their first point; candidate pairs are those whose
     first points differ by at most ``r`` (a sliding bound on the sorted values), and only those
-    are compared on the other points, O(N log N + candidates). Dense count: one boolean matrix ``C[i, j] = |x_i - x_j| <= r``; templates ``i`` and ``j``
+    are compared on the other points, O(N log N + candidates). Dense count: one boolean matrix
+    ``C[i, j] = |x_i - x_j| <= r``; templates ``i`` and ``j``
     match at length ``m`` when ``C[i + k, j + k]`` holds for ``k < m``, so every length comes from
     shifted blocks of the same matrix. Tree count: `scipy.spatial.cKDTree.count_neighbors` with
     the maximum norm (``p=inf``) counts ordered pairs and self-pairs, so
@@ -294,7 +311,9 @@ def nonlinear_domain(segments: list[np.ndarray], s: MetricsSettings
         notes.append(f"sampen: NaN, needs at least {s.sampen_min_beats} NN intervals; "
                      f"the window has {n}")
     else:
-        sd = float(np.concatenate(segs).std(ddof=1))
+        nn = segs[0] if len(segs) == 1 else np.concatenate(segs)
+        dev = nn - float(nn.sum()) / n
+        sd = math.sqrt(float(dev @ dev) / (n - 1))
         value, a, b = sample_entropy(segs, m=s.sampen_m, r=s.sampen_r * sd)
         out["sampen"] = value
         if not np.isfinite(value):

@@ -48,12 +48,13 @@ from dataclasses import dataclass
 from functools import lru_cache
 
 import numpy as np
-from scipy.interpolate import CubicSpline
-from scipy.linalg import cho_solve_banded, cholesky_banded
+from scipy.linalg import cholesky_banded
+from scipy.linalg.lapack import dpbtrs
 from scipy.signal import detrend as _linear_detrend
 from scipy.signal import lombscargle
 
 from ._settings import Bands, MetricsSettings
+from ._spline import spline_on_grid
 
 __all__ = [
     "FREQUENCY_KEYS",
@@ -90,10 +91,12 @@ def resample(times_s: np.ndarray, nn_ms: np.ndarray, fs_hz: float) -> np.ndarray
     """Cubic-spline interpolation of ``nn_ms`` (given at ``times_s``) on a ``fs_hz`` grid.
 
     The grid starts at the first time and has ``floor((t_last - t_first) * fs_hz) + 1`` samples.
+    The interpolant is ``scipy.interpolate.CubicSpline(..., bc_type="not-a-knot")``, computed
+    without its per-call overhead (`rrkit.metrics._spline`).
     """
     n = math.floor((times_s[-1] - times_s[0]) * fs_hz + 1e-9) + 1
     grid = times_s[0] + np.arange(n) / fs_hz
-    return CubicSpline(times_s, nn_ms, bc_type="not-a-knot")(grid)
+    return spline_on_grid(times_s, nn_ms, grid)
 
 
 @lru_cache(maxsize=64)
@@ -121,7 +124,7 @@ def smoothness_priors_detrend(x: np.ndarray, lam: float) -> np.ndarray:
 
     ``D2`` is the ``(N - 2, N)`` second-difference matrix; the symmetric pentadiagonal system is
     solved with a banded Cholesky factorisation (`scipy.linalg.cholesky_banded`, cached per
-    length), O(N).
+    length, then LAPACK ``dpbtrs``), O(N).
 
     Examples
     --------
@@ -134,7 +137,9 @@ def smoothness_priors_detrend(x: np.ndarray, lam: float) -> np.ndarray:
     n = x.size
     if n < 3:
         return x - x.mean()
-    trend = cho_solve_banded((_smoothness_factor(n, float(lam)), False), x, check_finite=False)
+    trend, info = dpbtrs(_smoothness_factor(n, float(lam)), x, lower=0)
+    if info != 0:  # pragma: no cover - the factor of an SPD matrix always solves
+        raise RuntimeError(f"banded Cholesky solve failed (LAPACK info {info})")
     return x - trend
 
 
@@ -246,19 +251,21 @@ def estimate_psd(runs: list[tuple[np.ndarray, np.ndarray]], s: MetricsSettings, 
                        len(runs) - len(usable))
 
 
+def _band(f: np.ndarray, band: tuple[float, float]) -> slice:
+    """Indices of the increasing grid ``f`` with ``lo <= f < hi``."""
+    return slice(int(f.searchsorted(band[0], "left")), int(f.searchsorted(band[1], "left")))
+
+
 def band_power(est: PsdEstimate, band: tuple[float, float]) -> float:
     """Power in ``lo <= f < hi`` (ms^2), rectangle rule on the estimator's grid."""
-    lo, hi = band
-    sel = (est.freqs_hz >= lo) & (est.freqs_hz < hi)
-    return float(est.psd_ms2_hz[sel].sum() * est.df_hz)
+    return float(est.psd_ms2_hz[_band(est.freqs_hz, band)].sum() * est.df_hz)
 
 
 def _peak(est: PsdEstimate, band: tuple[float, float]) -> float:
-    lo, hi = band
-    sel = np.flatnonzero((est.freqs_hz >= lo) & (est.freqs_hz < hi))
-    if sel.size == 0:
+    sel = _band(est.freqs_hz, band)
+    if sel.stop <= sel.start:
         return _NAN
-    return float(est.freqs_hz[sel[int(est.psd_ms2_hz[sel].argmax())]])
+    return float(est.freqs_hz[sel.start + int(est.psd_ms2_hz[sel].argmax())])
 
 
 def frequency_domain(runs: list[tuple[np.ndarray, np.ndarray]], s: MetricsSettings, *,
@@ -350,12 +357,12 @@ def _breathing(est: PsdEstimate, s: MetricsSettings, out: dict, notes: list[str]
     b = s.bands
     f, p = est.freqs_hz, est.psd_ms2_hz
     total = band_power(est, (b.vlf[0], b.hf[1]))
-    low = np.flatnonzero((f >= b.vlf[0]) & (f < b.hf[0]))
+    low = _band(f, (b.vlf[0], b.hf[0]))
     warned = False
-    if low.size and total > 0:
-        ipk = low[int(p[low].argmax())]
-        fpk = float(f[ipk])
-        near = (f >= fpk - s.resp_peak_halfwidth_hz) & (f <= fpk + s.resp_peak_halfwidth_hz)
+    if low.stop > low.start and total > 0:
+        fpk = float(f[low.start + int(p[low].argmax())])
+        hw = s.resp_peak_halfwidth_hz
+        near = slice(int(f.searchsorted(fpk - hw, "left")), int(f.searchsorted(fpk + hw, "right")))
         share = float(p[near].sum() * est.df_hz) / total
         if share >= s.resp_peak_share:
             out["resp_hz"] = fpk
@@ -367,10 +374,9 @@ def _breathing(est: PsdEstimate, s: MetricsSettings, out: dict, notes: list[str]
             warned = True
     if breathing_hz is not None and breathing_hz < b.hf[0]:
         if not warned:
-            sel = np.flatnonzero((f >= max(b.vlf[0], breathing_hz - 0.03))
-                                 & (f < min(b.hf[0], breathing_hz + 0.03)))
-            if sel.size:
-                out["resp_hz"] = float(f[sel[int(p[sel].argmax())]])
+            pk = _peak(est, (max(b.vlf[0], breathing_hz - 0.03), min(b.hf[0], breathing_hz + 0.03)))
+            if np.isfinite(pk):
+                out["resp_hz"] = pk
         notes.append(
             f"stated breathing rate {breathing_hz:.3f} Hz ({breathing_hz * 60:.1f}/min) lies below "
             f"the HF band ({b.hf[0]:g} Hz); respiratory power falls into LF, so LF, HF and LF/HF "

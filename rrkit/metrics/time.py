@@ -63,34 +63,34 @@ def tinn(nn_ms: np.ndarray) -> float:
     if nn_ms.size < 3:
         return _NAN
     idx = (nn_ms // HIST_BIN_MS).astype(np.int64)
-    lo_bin = int(idx.min())
-    counts = np.bincount(idx - lo_bin).astype(float)
+    counts = np.bincount(idx - idx.min()).astype(float)
     nb = counts.size
     if nb < 3:
         return _NAN
     x = int(counts.argmax())
     y = counts[x]
-    centres = np.arange(nb) + 0.5
-    # candidate left feet n (bin edges 0..x) and right feet m (edges x+1..nb)
-    n_edges = np.arange(0, x + 1, dtype=float)
-    m_edges = np.arange(x + 1, nb + 1, dtype=float)
     xc = x + 0.5
-    left = np.where(centres[None, :] >= n_edges[:, None],
-                    y * (centres[None, :] - n_edges[:, None])
-                    / np.maximum(xc - n_edges[:, None], 1e-12),
-                    0.0)
-    left = np.where(centres[None, :] <= xc, np.clip(left, 0.0, y), 0.0)  # (n_left, nb)
-    right = np.where(centres[None, :] <= m_edges[:, None],
-                     y * (m_edges[:, None] - centres[None, :])
-                     / np.maximum(m_edges[:, None] - xc, 1e-12),
-                     0.0)
-    right = np.where(centres[None, :] > xc, np.clip(right, 0.0, y), 0.0)  # (n_right, nb)
-    is_left = centres <= xc
-    err_left = ((counts[None, :] - left) ** 2 * is_left[None, :]).sum(axis=1)
-    err_right = ((counts[None, :] - right) ** 2 * (~is_left)[None, :]).sum(axis=1)
-    i = int(err_left.argmin())
-    j = int(err_right.argmin())
-    return float((m_edges[j] - n_edges[i]) * HIST_BIN_MS)
+    # left side: bins 0..x (centres j + 0.5), feet at edges 0..x; the line is 0 left of its foot
+    left = counts[: x + 1]
+    feet = np.arange(x + 1.0)
+    q = y * ((np.arange(x + 1) + 0.5)[None, :] - feet[:, None]) / (xc - feet)[:, None]
+    err_left = ((left[None, :] - np.maximum(q, 0.0)) ** 2).sum(axis=1)
+    # right side: bins x+1..nb-1, feet at edges x+1..nb; 0 right of its foot
+    right = counts[x + 1:]
+    ends = np.arange(x + 1.0, nb + 1.0)
+    q = y * (ends[:, None] - (np.arange(x + 1, nb) + 0.5)[None, :]) / (ends - xc)[:, None]
+    err_right = ((right[None, :] - np.maximum(q, 0.0)) ** 2).sum(axis=1)
+    return float((ends[int(err_right.argmin())] - feet[int(err_left.argmin())]) * HIST_BIN_MS)
+
+
+def _median(x: np.ndarray) -> float:
+    """Median (as `numpy.median`) by one partition, without its per-call overhead."""
+    n = x.size
+    k = n // 2
+    if n % 2:
+        return float(np.partition(x, k)[k])
+    part = np.partition(x, (k - 1, k))
+    return 0.5 * (float(part[k - 1]) + float(part[k]))
 
 
 def time_domain(segments: list[np.ndarray], *, n_beats: int, duration_s: float
@@ -144,21 +144,25 @@ def time_domain(segments: list[np.ndarray], *, n_beats: int, duration_s: float
     if n == 0:
         notes.append("time domain: no NN intervals in the window, every time-domain metric is NaN")
         return out, notes
-    mean = float(nn.mean())
+    mean = float(nn.sum()) / n
+    lo, hi = float(nn.min()), float(nn.max())
     out["mean_rr_ms"] = mean
-    out["median_rr_ms"] = float(np.median(nn))
+    out["median_rr_ms"] = _median(nn)
     out["mean_hr_bpm"] = 60000.0 / mean
-    out["min_hr_bpm"] = 60000.0 / float(nn.max())
-    out["max_hr_bpm"] = 60000.0 / float(nn.min())
+    out["min_hr_bpm"] = 60000.0 / hi
+    out["max_hr_bpm"] = 60000.0 / lo
     if n >= 2:
-        sdnn = float(nn.std(ddof=1))
+        dev = nn - mean
+        sdnn = math.sqrt(float(dev @ dev) / (n - 1))
         out["sdnn_ms"] = sdnn
         out["cv_rr_pct"] = 100.0 * sdnn / mean
     else:
         notes.append("sdnn_ms, cv_rr_pct: NaN, fewer than 2 NN intervals")
     d = successive_differences(nonempty)
-    if d.size >= 1:
-        rmssd = math.sqrt(float(np.dot(d, d)) / d.size)
+    nd = d.size
+    if nd >= 1:
+        ss = float(d @ d)
+        rmssd = math.sqrt(ss / nd)
         out["rmssd_ms"] = rmssd
         out["ln_rmssd"] = math.log(rmssd) if rmssd > 0 else _NAN
         if rmssd == 0:
@@ -168,8 +172,9 @@ def time_domain(segments: list[np.ndarray], *, n_beats: int, duration_s: float
         out["pnn20_pct"] = 100.0 * float(np.count_nonzero(ad > 20.0)) / n
     else:
         notes.append("rmssd_ms, ln_rmssd, pnn50_pct, pnn20_pct: NaN, no two adjacent NN intervals")
-    if d.size >= 2:
-        out["sdsd_ms"] = float(d.std(ddof=1))
+    if nd >= 2:
+        dc = d - float(d.sum()) / nd
+        out["sdsd_ms"] = math.sqrt(float(dc @ dc) / (nd - 1))
     else:
         notes.append("sdsd_ms: NaN, fewer than 2 successive differences")
     out["hrv_triangular_index"] = triangular_index(nn)
