@@ -341,3 +341,27 @@ def test_provenance_lists_every_input_hash(tmp_path):
         (tmp_path / "out" / "daily.csv").read_bytes()).hexdigest()
     parquet = pd.read_parquet(tmp_path / "out" / "daily.parquet")
     np.testing.assert_allclose(parquet["ln_rmssd"], summary.table["ln_rmssd"])
+
+
+def _exit_on_three(x):
+    if x == 3:
+        os._exit(1)  # a worker process that dies (as if killed by the system)
+    return x * x
+
+
+def test_local_executor_survives_a_dying_worker():
+    with LocalExecutor(1, on_broken=lambda item, exc: ("died", item)) as ex:
+        got = list(ex.imap_unordered(_exit_on_three, range(8), chunksize=1))
+    assert ("died", 3) in got
+    assert len(got) == 8
+    assert {g for g in got if not isinstance(g, tuple)} <= {x * x for x in range(8)}
+    assert 49 in got  # items after the failure still ran on a fresh pool
+
+
+def test_progress_bar_only_when_asked_or_on_a_terminal(tmp_path, capsys):
+    data = tmp_path / "data"
+    _squad_folder(data, subjects=("A01",), n_days=3)
+    run_daily(data, tmp_path / "a", executor=InlineExecutor())  # stderr is not a terminal here
+    assert capsys.readouterr().err == ""
+    run_daily(data, tmp_path / "b", executor=InlineExecutor(), progress=True)
+    assert "rrkit daily" in capsys.readouterr().err

@@ -20,7 +20,7 @@ from __future__ import annotations
 
 import os
 from collections.abc import Callable, Iterable, Iterator
-from concurrent.futures import FIRST_COMPLETED, ProcessPoolExecutor, wait
+from concurrent.futures import FIRST_COMPLETED, CancelledError, ProcessPoolExecutor, wait
 from concurrent.futures.process import BrokenProcessPool
 from typing import Any, Protocol, runtime_checkable
 
@@ -114,7 +114,6 @@ class LocalExecutor:
 
     def imap_unordered(self, fn, items, *, chunksize: int = 1):
         chunksize = check_int("chunksize", chunksize, low=1)
-        pool = self._ensure()
         it = iter(items)
         pending: dict = {}
 
@@ -126,7 +125,8 @@ class LocalExecutor:
                     break
             if not chunk:
                 return False
-            pending[pool.submit(_run_chunk, fn, chunk)] = chunk
+            pool = self._ensure()
+            pending[pool.submit(_run_chunk, fn, chunk)] = (chunk, pool)
             return True
 
         for _ in range(2 * self.n_workers):
@@ -135,15 +135,16 @@ class LocalExecutor:
         while pending:
             done, _ = wait(pending, return_when=FIRST_COMPLETED)
             for fut in done:
-                chunk = pending.pop(fut)
+                chunk, pool = pending.pop(fut)
                 try:
                     results = fut.result()
-                except BrokenProcessPool as exc:
+                except (BrokenProcessPool, CancelledError) as exc:
                     if self._on_broken is None:
                         raise
                     results = [self._on_broken(item, exc) for item in chunk]
-                    self.close()
-                    pool = self._ensure()
+                    if pool is self._pool:  # replace the broken pool once
+                        self._pool = None
+                        pool.shutdown(wait=False, cancel_futures=True)
                 yield from results
                 submit_next()
 
