@@ -127,10 +127,20 @@ def athlete_trend(daily, subject: str, path=None, *, load=None, phases=None,
     fl = q == "flagged"
     ax.scatter(d.loc[ok, "date"], d.loc[ok, "ln_rmssd"], s=18, color=OKABE_ITO["blue"],
                zorder=3, label="daily ln-RMSSD")
+    # the y range follows the values the mean uses; a flagged value far outside it (an
+    # artifact-inflated window) is drawn at the edge of the axis instead of squashing the rest
+    vals = pd.concat([d.loc[ok, "ln_rmssd"], d["ln_rmssd_7d"], d[lo_c], d[hi_c]]).astype(float)
+    vals = vals[np.isfinite(vals)]
+    lo_y, hi_y = (float(vals.min()), float(vals.max())) if vals.size else (0.0, 1.0)
+    pad = 0.15 * (hi_y - lo_y + 0.1)
+    y_lim = (lo_y - 2 * pad, hi_y + pad)
     if fl.any():
-        ax.scatter(d.loc[fl, "date"], d.loc[fl, "ln_rmssd"], s=30, facecolor="white",
+        y_fl = d.loc[fl, "ln_rmssd"].astype(float).clip(y_lim[0] + 0.02 * pad, y_lim[1] - 0.1 * pad)
+        off = bool((y_fl != d.loc[fl, "ln_rmssd"].astype(float)).any())
+        ax.scatter(d.loc[fl, "date"], y_fl, s=30, facecolor="white",
                    edgecolor=OKABE_ITO["orange"], lw=1.4, marker="^", zorder=3,
-                   label="flagged (not in the mean)")
+                   label="flagged (not in the mean" + ("; off-scale ones at the edge)" if off
+                                                      else ")"))
     ax.plot(d["date"], d["ln_rmssd_7d"].astype(float), color=OKABE_ITO["black"], lw=1.8,
             label="7-day mean", zorder=4)
     if "below_band" in d.columns:
@@ -139,12 +149,7 @@ def athlete_trend(daily, subject: str, path=None, *, load=None, phases=None,
             ax.scatter(d.loc[below, "date"], d.loc[below, "ln_rmssd_7d"], s=26,
                        color=OKABE_ITO["vermillion"], marker="s", zorder=5,
                        label="7-day mean below band")
-    vals = pd.concat([d["ln_rmssd"], d["ln_rmssd_7d"], d[lo_c], d[hi_c]]).astype(float)
-    vals = vals[np.isfinite(vals)]
-    if vals.size:
-        lo_y, hi_y = float(vals.min()), float(vals.max())
-        pad = 0.15 * (hi_y - lo_y + 0.1)
-        ax.set_ylim(lo_y - 2 * pad, hi_y + pad)
+    ax.set_ylim(*y_lim)
     y_tick = ax.get_ylim()[0] + 0.04 * (ax.get_ylim()[1] - ax.get_ylim()[0])
     rj = q == "rejected"
     ms = q == "missing"
