@@ -32,6 +32,17 @@ def _wake(text: str) -> tuple[str, str]:
     return tuple(f"{int(t.split(':')[0]):02d}:{t.split(':')[1]}" for t in m.groups())
 
 
+def _command_line() -> list[str]:
+    """The command as the parsed options say (for the provenance)."""
+    ctx = click.get_current_context()
+    out = ["rrkit", "daily"]
+    for name, value in ctx.params.items():
+        if value is None:
+            continue
+        out.append(f"{name}={value}")
+    return out
+
+
 @click.command(name="daily", context_settings={"max_content_width": 100})
 @click.argument("folder", type=click.Path(exists=True, file_okay=False, path_type=Path))
 @click.option("-o", "--output", "outdir", required=True,
@@ -86,8 +97,6 @@ def command(folder, outdir, manifest, pattern, window, tz, wake, pick, clean_met
 
     rrkit is not a medical device and makes no diagnosis.
     """
-    import sys
-
     from ..batch import run_daily
     from ..daily import BaselineSettings, DailySettings
 
@@ -101,7 +110,7 @@ def command(folder, outdir, manifest, pattern, window, tz, wake, pick, clean_met
                              pick=pick, clean=clean_method, baselines=baselines)
     summary = run_daily(folder, outdir, manifest=manifest, pattern=pattern, settings=settings,
                         jobs=jobs, progress=progress, first_date=first_date,
-                        last_date=last_date, command=["rrkit", "daily", *sys.argv[2:]])
+                        last_date=last_date, command=_command_line())
     table = summary.table
     n_subjects = table["subject"].nunique() if len(table) else 0
     click.echo(f"{len(table)} rows ({n_subjects} subjects) -> {outdir / 'daily.csv'}")
