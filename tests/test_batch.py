@@ -365,3 +365,22 @@ def test_progress_bar_only_when_asked_or_on_a_terminal(tmp_path, capsys):
     assert capsys.readouterr().err == ""
     run_daily(data, tmp_path / "b", executor=InlineExecutor(), progress=True)
     assert "rrkit daily" in capsys.readouterr().err
+
+
+def test_manifest_marks_the_morning_recording(tmp_path):
+    data = tmp_path / "data"
+    for name, seed in (("a.txt", 1), ("b.txt", 2), ("c.txt", 3)):
+        _write(data / name, seed)
+    man = tmp_path / "manifest.csv"
+    man.write_text("path,subject,date,time,morning,protocol\n"
+                   "a.txt,A01,2026-03-02,06:30,no,supine\n"
+                   "b.txt,A01,2026-03-02,06:40,yes,seated\n"
+                   "c.txt,A01,2026-03-03,06:30,,supine\n")
+    s = DailySettings(pick="marked")
+    t = run_daily(data, tmp_path / "out", manifest=man, settings=s,
+                  executor=InlineExecutor()).table
+    assert t["source"].iloc[0] == "b.txt"
+    assert t["protocol"].iloc[0] == "seated"  # manifest columns travel with the row
+    assert t["quality"].iloc[1] == "missing"
+    first = run_daily(data, tmp_path / "out", manifest=man, executor=InlineExecutor()).table
+    assert first["source"].tolist() == ["a.txt", "c.txt"]  # the default rule: the first one

@@ -112,6 +112,9 @@ def command(folder, outdir, manifest, pattern, window, tz, wake, pick, clean_met
                         jobs=jobs, progress=progress, first_date=first_date,
                         last_date=last_date, command=_command_line())
     table = summary.table
+    if summary.n_files == 0:
+        click.echo(f"no recordings found under {folder} (files ending in .txt, .csv, .tsv, "
+                   ".rr, .edf, .hea, or .gz of these)")
     n_subjects = table["subject"].nunique() if len(table) else 0
     click.echo(f"{len(table)} rows ({n_subjects} subjects) -> {outdir / 'daily.csv'}")
     if summary.n_ignored:
