@@ -108,7 +108,8 @@ def describe(rec: Recording) -> list[tuple[str, str]]:
 @click.option("--column", default=None, metavar="NAME",
               help="Column name or 0-based index (text), or channel label (EDF, WFDB).")
 @click.option("--detector", type=click.Choice(DETECTORS), default=DEFAULT_DETECTOR,
-              show_default=True, help="R-peak detector for ECG (neurokit2).")
+              show_default=True, metavar="NAME",
+              help="R-peak detector for ECG, one of neurokit2's: " + ", ".join(DETECTORS) + ".")
 @click.pass_context
 def command(ctx: click.Context, files: tuple[Path, ...], kind: str, unit: str, fs: float | None,
             column: str | None, detector: str) -> int:

@@ -213,9 +213,9 @@ def detect_beats(signal, *, fs_hz: float | None, detector: str = DEFAULT_DETECTO
     }
     if starts.size == 0:
         raise InputError(
-            f"no usable {what}: the signal is flat, clipped or missing throughout "
-            f"({found['flat_s']:.1f} s flat, {found['missing_s']:.1f} s missing), so no "
-            "heartbeats can be detected", path=path,
+            f"no usable {what}: the signal is flat, clipped or missing throughout (no clean "
+            f"stretch of {_MIN_SEGMENT_S:g} s or more; {found['flat_s']:.1f} s flat, "
+            f"{found['missing_s']:.1f} s missing), so no heartbeats can be detected", path=path,
             hint="check the electrode contact and the channel chosen")
     cleaned = [_clean(sig[a:b], fs) for a, b in zip(starts, stops, strict=True)]
     inverted, neg_share = _is_inverted(cleaned, fs)

@@ -43,6 +43,14 @@ def _need(module: str, extra: str):
                          hint=f"pip install 'rrkit[{extra}]'") from None
 
 
+def _channel_reason(labels: list[str], k: int, column) -> str:
+    if column is not None:
+        return f"channel {labels[k]!r} given"
+    if len(labels) == 1:
+        return "the only channel"
+    return f"first channel labelled as an ECG lead ({labels[k]!r})"
+
+
 def _pick_channel(labels: list[str], column, path: str) -> int:
     if column is not None:
         if isinstance(column, (int, np.integer)) and not isinstance(column, bool):
@@ -110,7 +118,8 @@ def read_wfdb_record(path: str, *, fs_hz: float | None, column, detector: str,
     sig = np.asarray(rec.p_signal[:, 0], dtype=np.float64)
     extra: dict[str, Any] = {"format": "WFDB", "record": Path(prefix).name,
                              "signal_unit": (rec.units or [None])[0],
-                             "n_samples": int(sig.size)}
+                             "n_samples": int(sig.size),
+                             "column_chosen_by": _channel_reason(list(header.sig_name), k, column)}
     return recording_from_signal(sig, fs_hz=fs, path=str(path), detector=detector,
                                  subject=subject, start=_wfdb_start(header),
                                  kind_decided_by=kind_decided_by, column=header.sig_name[k],
@@ -189,7 +198,8 @@ def read_edf(path: str, *, fs_hz: float | None, column, detector: str, subject: 
         sig = np.asarray(reader.readSignal(k), dtype=np.float64)
         start = reader.getStartdatetime()
         extra: dict[str, Any] = {"format": "EDF", "signal_unit": reader.getPhysicalDimension(k),
-                                 "n_samples": int(sig.size), "channels": ", ".join(labels)}
+                                 "n_samples": int(sig.size), "channels": ", ".join(labels),
+                                 "column_chosen_by": _channel_reason(labels, k, column)}
     finally:
         reader.close()
     return recording_from_signal(sig, fs_hz=fs, path=str(path), detector=detector,
