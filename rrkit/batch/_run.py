@@ -264,17 +264,18 @@ def _compute(todo, results, status, cache, s, jobs, executor, progress) -> int:
     chunksize = max(1, min(16, len(todo) // (4 * n_workers)))
     show = progress if progress is not None else (sys.stderr.isatty() and len(todo) > 20)
     bar = None
-    if show:
-        from tqdm import tqdm
-
-        bar = tqdm(total=len(todo), unit="file", desc="rrkit daily", file=sys.stderr,
-                   leave=False, dynamic_ncols=True)
     n = 0
     try:
         for res in ex.imap_unordered(fn, todo, chunksize=chunksize):
             results[res["relpath"]] = res
             status[res["relpath"]] = "done" if res.get("ok") else "failed"
             n += 1
+            if show and bar is None:
+                # created once the workers run, so its monitor thread never precedes a fork
+                from tqdm import tqdm
+
+                bar = tqdm(total=len(todo), initial=n - 1, unit="file", desc="rrkit daily",
+                           file=sys.stderr, leave=False, dynamic_ncols=True)
             if bar is not None:
                 bar.update(1)
     finally:
