@@ -307,3 +307,12 @@ def test_relative_time_column_shows_breaks(tmp_path):
     # hand-computed: 23.2 - 2.4 = 20.8 s, of which the 800 ms interval covers 0.8 s: 20 s gap
     assert rec.rr_ms.tolist() == pytest.approx([800, 800, 800, 20000, 800, 800])
     assert rec.gaps.tolist() == [False, False, False, True, False, False]
+
+
+def test_epoch_beat_times_alone(tmp_path):
+    # one column of Unix epoch seconds: beat times with an absolute (UTC) start
+    rec = read(_write(tmp_path / "beats.txt", "1767250801.0\n1767250801.8\n1767250802.61\n"
+                                              "1767250803.4\n"))
+    assert rec.info.kind == "peaks"
+    assert rec.start == datetime(2026, 1, 1, 7, 0, 1, tzinfo=timezone.utc)
+    assert rec.rr_ms == pytest.approx([800, 810, 790], abs=1e-3)

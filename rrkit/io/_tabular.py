@@ -76,7 +76,7 @@ def _layout(table: TextTable, timestamp_column: str | int | None) -> dict[str, A
             if typ == "timestamp" or (typ != "number" and roles[k]["role"] == "timestamp"):
                 ts_col = k
                 break
-        if ts_col is None and len(types) > 1:
+        if ts_col is None:  # Unix epoch numbers (alone, they are beat times)
             for k, typ in enumerate(types):
                 if typ != "number":
                     continue
