@@ -62,6 +62,15 @@ def test_small_demo_lists_the_failed_file(small_run):
     assert "no numbers found" in text
 
 
+def test_demo_finds_the_checkout_data(monkeypatch, tmp_path):
+    if not (SAMPLES / "squad.json").is_file():
+        pytest.skip(f"committed demo data not found: {SAMPLES}")
+    from rrkit.cli._demo import find_data
+
+    monkeypatch.chdir(REPO / "docs")  # a parent folder holds data_samples/
+    assert find_data(None) == SAMPLES
+
+
 def test_demo_data_folder_must_be_a_squad(tmp_path):
     from rrkit.cli._demo import find_data
 
@@ -88,6 +97,11 @@ def test_altitude_camp_puts_most_athletes_below_band(full_run):
     camp = daily[(daily["date"] >= "2026-02-16") & (daily["date"] <= "2026-02-22")]
     share = camp.groupby("subject")["below_band"].mean()
     assert (share > 0.5).sum() >= 6, share
+    # ... and raises resting heart rate above its band for most of them
+    hr_share = camp.groupby("subject")["hr_above_band"].mean()
+    assert (hr_share > 0.5).sum() >= 6, hr_share
+    # the two athletes the story makes non-responders stay mostly inside their band
+    assert share[["R02", "R07"]].max() < 0.5
     # the baseline weeks are mostly inside the band
     base = daily[(daily["date"] >= "2026-01-19") & (daily["date"] <= "2026-02-01")]
     assert base["below_band"].mean() < 0.2
