@@ -11,9 +11,9 @@ case, then the table with a 7-day rolling ln-RMSSD per subject in pandas. Becaus
 about a tenth of a second per file, it runs on an evenly spaced subset of the files and its
 throughput (files per second) is what is compared; the report says so.
 
-Optionally also 30 eight-hour nights through ``rrkit analyze`` in one process (sliding 5-minute
-windows) against the neurokit2 time per night measured by the night-pipeline case's method on
-two of them (extrapolated, stated).
+Also 30 eight-hour nights through ``rrkit analyze NIGHT... --window slide:5m`` in one process
+(one core), against the neurokit2 time per night of the night-pipeline method measured on two of
+them (extrapolated to 30, stated in the output).
 
 Checks before timing: the ``--jobs 1`` and ``--jobs 2`` tables are identical; every subject-day
 has a row; on the neurokit2 subset, the morning RMSSD of each side is compared with the
@@ -61,6 +61,36 @@ def run_daily(files_dir: Path, manifest: Path, out_dir: Path, *, jobs: int) -> f
         raise RuntimeError(f"rrkit daily --jobs {jobs} exited {proc.returncode}: "
                            f"{(proc.stderr or proc.stdout).strip()[-1500:]}")
     return wall
+
+
+def run_analyze_nights(nights: list[Path], out_csv: Path) -> float:
+    """``rrkit analyze NIGHT... --window slide:5m -o OUT.csv`` in one fresh process (one core);
+    returns its wall time in s."""
+    cmd = [sys.executable, "-m", "rrkit", "analyze", *map(str, nights), "--window", "slide:5m",
+           "--clean", "drr", "--psd", "welch", "--format", "csv", "-o", str(out_csv),
+           "--no-progress"]
+    env = dict(os.environ, PYTHONWARNINGS="ignore")
+    t0 = time.perf_counter()
+    proc = subprocess.run(cmd, capture_output=True, text=True, env=env, check=False,
+                          stdin=subprocess.DEVNULL, timeout=1800)
+    wall = time.perf_counter() - t0
+    if proc.returncode != 0:
+        raise RuntimeError(f"rrkit analyze (nights) exited {proc.returncode}: "
+                           f"{(proc.stderr or proc.stdout).strip()[-1500:]}")
+    return wall
+
+
+def nk_night(path: Path) -> list[dict]:
+    """The neurokit2 equivalent for one night: numpy read, ``signal_fixpeaks``, 5-minute
+    windows from the first beat (the windows rrkit's ``slide:5m`` makes) with the metric set."""
+    from .._nk import nk_windows
+
+    rr = nk_read_rr(path)
+    peaks = np.round(np.concatenate(([0.0], np.cumsum(rr))) * (FS_HZ / 1000.0)).astype(np.int64)
+    t = nk_fixpeaks(peaks) / FS_HZ
+    n = int((t[-1] - t[0]) // WINDOW_S)
+    bounds = [(t[0] + k * WINDOW_S, t[0] + (k + 1) * WINDOW_S) for k in range(n)]
+    return nk_windows(t, np.diff(t) * 1000.0, bounds)
 
 
 def read_daily_table(out_dir: Path):
@@ -111,13 +141,13 @@ def run(cfg) -> CaseResult:
     res = CaseResult(NAME, DESCRIPTION)
     t_case = time.perf_counter()
     if cfg.quick:
-        n_subj, n_days, every = 2, 4, 2
+        n_subj, n_days, every, n_nights, night_s, nk_nights = 2, 4, 2, 2, 1800.0, 1
     else:
-        n_subj, n_days, every = 12, 180, 10
+        n_subj, n_days, every, n_nights, night_s, nk_nights = 12, 180, 10, 30, 8 * 3600.0, 2
     root = cfg.cache_dir / ("season-quick" if cfg.quick else "season")
     t_gen = time.perf_counter()
     idx = make_season(root, n_subjects=n_subj, n_days=n_days, seconds=360.0,
-                      artifact_rate=0.01, seed=5)
+                      artifact_rate=0.01, n_nights=n_nights, night_s=night_s, seed=5)
     gen_s = time.perf_counter() - t_gen
     man = _manifest(idx["manifest"])
     n_files = len(man)
@@ -172,6 +202,27 @@ def run(cfg) -> CaseResult:
             len(merged) == len(sub) and med_rr < med_nk,
             f"{len(merged)} of {len(sub)} files compared; median error rrkit {100 * med_rr:.2f}%,"
             f" neurokit2 {100 * med_nk:.2f}% (artifact-free truth over the same window)"))
+
+        # ---- nights: rrkit analyze over every night in one process vs neurokit2 on a few
+        nights = idx["nights"]
+        night_csv = work / "nights.csv"
+        t_nights = run_analyze_nights(nights, night_csv)
+        ntab = pd.read_csv(night_csv)
+        nk_nights_rows = [nk_night(p) for p in nights[:1]]  # warm-up, and the check
+        t0 = time.perf_counter()
+        for p in nights[:nk_nights]:
+            nk_night(p)
+        nk_night_s = time.perf_counter() - t0
+        first = ntab[ntab["source"].astype(str).str.endswith(nights[0].name)]
+        a_mean = first["mean_rr_ms"].to_numpy(float)
+        b_mean = np.array([r["mean_rr_ms"] for r in nk_nights_rows[0]], float)
+        ok_n = a_mean.size == b_mean.size and a_mean.size > 0
+        worst = float(np.max(np.abs(a_mean / b_mean - 1))) if ok_n else float("nan")
+        res.checks.append(Check(
+            "nights: same windows and mean RR within 1% (first night vs neurokit2)",
+            ok_n and worst < 0.01,
+            f"{a_mean.size} vs {b_mean.size} windows; largest mean-RR difference "
+            f"{100 * worst:.3f}%; {len(ntab)} windows over {len(nights)} nights"))
     finally:
         shutil.rmtree(work, ignore_errors=True)
 
@@ -189,10 +240,24 @@ def run(cfg) -> CaseResult:
                      f"files/s, neurokit2 {fps_nk:.1f} files/s (measured on {len(sub)} of "
                      f"{n_files} files; its season time is extrapolated: "
                      f"{n_files / fps_nk:.0f} s)")
+    tn, tnk_n = Timing([t_nights]), Timing([nk_night_s])
+    res.timings[f"rrkit analyze {len(nights)} nights"] = tn
+    res.timings[f"neurokit2 {nk_nights} nights"] = tnk_n
+    nps = len(nights) / tn.median_s
+    nps_nk = nk_nights / tnk_n.median_s
+    res.metrics["nights_per_s"] = {"rrkit": nps, "neurokit2": nps_nk}
+    res.ratios["nights: rrkit / neurokit2 (nights/s, one process each)"] = nps / nps_nk
+    res.notes.append(f"nights: rrkit {len(nights)} nights in {tn.median_s:.1f} s (one process, "
+                     f"start-up included), neurokit2 {tnk_n.median_s / nk_nights:.1f} s per night "
+                     f"(measured on {nk_nights}; {len(nights)} nights extrapolated: "
+                     f"{len(nights) / nps_nk:.0f} s)")
     res.targets.append(Target("--jobs 2 vs --jobs 1", res.ratios["--jobs 2 / --jobs 1"], ">=",
                               JOBS_TARGET_X))
     res.targets.append(Target("throughput vs neurokit2 (--jobs 2)",
                               res.ratios["rrkit --jobs 2 / neurokit2 (files/s)"], ">=",
                               NK_TARGET_X))
+    res.targets.append(Target("nights throughput vs neurokit2 (one process each)",
+                              res.ratios["nights: rrkit / neurokit2 (nights/s, one process each)"],
+                              ">=", NK_TARGET_X))
     res.elapsed_s = time.perf_counter() - t_case
     return res
