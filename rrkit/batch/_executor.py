@@ -73,9 +73,13 @@ def _run_chunk(fn, chunk):
 
 
 def _warm_up(modules: tuple[str, ...]) -> None:
-    # import the heavy modules once per worker, not once per task
+    # Ctrl-C is handled by the parent (it stops submitting and shuts the pool down cleanly);
+    # workers ignore it instead of each printing a traceback
     import importlib
+    import signal
 
+    signal.signal(signal.SIGINT, signal.SIG_IGN)
+    # import the heavy modules once per worker, not once per task
     for name in modules:
         importlib.import_module(name)
 
