@@ -467,6 +467,8 @@ def select_days(
               else _as_date("first_date", first_date))
         hi = (max(d for _, d in groups) if last_date is None
               else _as_date("last_date", last_date))
+        if hi < lo:
+            raise InputError(f"first_date {lo} is after last_date {hi}")
         n_days = (hi - lo).days + 1
     else:
         lo, n_days = None, 0

@@ -282,3 +282,16 @@ def test_measure_recording_rejects_short_recording():
 def test_daily_table_needs_subject_and_start():
     with pytest.raises(rrkit.InputError, match="needs subject and start"):
         daily_table([simulate_rr(duration_s=400, seed=1)])
+
+
+def test_select_days_span_options():
+    t = _per_rec([{"subject": "A", "start": "2026-03-03T07:00:00", "source": "x",
+                   "quality": "ok"}])
+    days = select_days(t, first_date="2026-03-01", last_date=dt.date(2026, 3, 4))
+    assert days["date"].tolist() == [D0 - dt.timedelta(days=1) + dt.timedelta(days=k)
+                                     for k in range(4)]
+    assert days["quality"].tolist() == ["missing", "missing", "ok", "missing"]
+    with pytest.raises(rrkit.InputError, match="is after last_date"):
+        select_days(t, first_date="2026-03-05", last_date="2026-03-04")
+    with pytest.raises(rrkit.InputError, match="first_date must be a date"):
+        select_days(t, first_date="March")
