@@ -337,7 +337,8 @@ def measure_recording(recording: Recording, *, settings: DailySettings | None = 
             values.setdefault(k, float("nan"))
         if quality != "rejected" and not np.isfinite(values["ln_rmssd"]):
             quality, reason = "rejected", "ln-RMSSD is undefined in this window"
-        row.update(quality=quality, quality_reason=reason, notes="; ".join(notes))
+        row.update(quality=quality, quality_reason=reason, caution=summ.caution or "",
+                   notes="; ".join(notes))
         row.update(values)
         rows.append(row)
     return rows, cr
@@ -347,7 +348,7 @@ def _rejected_row(label: str, reason: str) -> dict[str, Any]:
     row: dict[str, Any] = {"window": str(label), "start_s": float("nan"), "end_s": float("nan"),
                            "n_beats": 0, "artifact_pct": float("nan"),
                            "corrected_pct": float("nan"), "quality": "rejected",
-                           "quality_reason": reason, "notes": ""}
+                           "quality_reason": reason, "caution": "", "notes": ""}
     row.update({k: float("nan") for k in DAILY_METRICS})
     return row
 
@@ -481,7 +482,7 @@ def select_days(
                                   extra_cols))
     cols = ["subject", "date", "source", "start_time", "window", "n_beats", "artifact_pct",
             "corrected_pct", "quality", "quality_reason", *DAILY_METRICS, "n_recordings",
-            *extra_cols]
+            "caution", *extra_cols]
     table = pd.DataFrame(out_rows, columns=cols)
     table["n_beats"] = pd.array([None if _isna(v) else int(v) for v in table["n_beats"]],
                                 dtype="Int64")
@@ -493,10 +494,10 @@ def select_days(
 
 _KNOWN_INPUT = {"subject", "start", "source", "window", "n_beats", "artifact_pct",
                 "corrected_pct", "quality", "quality_reason", "marked", "failed", "notes",
-                "start_s", "end_s", "start_time", "error", "date", "n_recordings",
+                "start_s", "end_s", "start_time", "error", "date", "n_recordings", "caution",
                 *DAILY_METRICS}
 _COPY = ("source", "start_time", "window", "n_beats", "artifact_pct", "corrected_pct",
-         "quality", "quality_reason", *DAILY_METRICS)
+         "quality", "quality_reason", *DAILY_METRICS, "caution")
 
 
 def _isna(v) -> bool:
@@ -512,7 +513,8 @@ def _pick(subj, day, group, s: DailySettings, wake0, wake1, extra_cols):
     base: dict[str, Any] = {"subject": subj, "date": day, "source": None, "start_time": None,
                             "window": None, "n_beats": None, "artifact_pct": np.nan,
                             "corrected_pct": np.nan, "quality": "missing",
-                            "quality_reason": "no recording", "n_recordings": 0}
+                            "quality_reason": "no recording", "n_recordings": 0,
+                            "caution": ""}
     base.update(dict.fromkeys(DAILY_METRICS, np.nan))
     base.update(dict.fromkeys(extra_cols))
     if not group:
@@ -546,8 +548,8 @@ def _pick(subj, day, group, s: DailySettings, wake0, wake1, extra_cols):
     for k in (*_COPY, *extra_cols):
         if k in best:
             base[k] = best[k]
-    reason = base.get("quality_reason")
-    base["quality_reason"] = "" if _isna(reason) else str(reason)
+    for k in ("quality_reason", "caution"):
+        base[k] = "" if _isna(base.get(k)) else str(base[k])
     return base
 
 

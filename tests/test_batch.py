@@ -384,3 +384,23 @@ def test_manifest_marks_the_morning_recording(tmp_path):
     assert t["quality"].iloc[1] == "missing"
     first = run_daily(data, tmp_path / "out", manifest=man, executor=InlineExecutor()).table
     assert first["source"].tolist() == ["a.txt", "c.txt"]  # the default rule: the first one
+
+
+def test_frequent_premature_beats_carry_the_caution(tmp_path, capsys):
+    from rrkit.simulate import inject_artifacts
+
+    data = tmp_path / "data"
+    _squad_folder(data, subjects=("A01",), n_days=2)
+    rec = simulate_rr(duration_s=370, seed=5)
+    ectopic, _ = inject_artifacts(rec, counts={"ectopic": 12}, seed=3)  # ~120 per hour
+    rrkit.write_rr(data / "B02_2026-03-02_0700.txt", ectopic)
+    out = tmp_path / "out"
+    assert main(["daily", str(data), "-o", str(out)]) == 0
+    daily = pd.read_csv(out / "daily.csv", keep_default_na=False)
+    b = daily[daily["subject"] == "B02"].iloc[0]
+    # the artifact stage's caution (above 30 premature beats per hour) travels to the row
+    assert "premature beats" in b["caution"]
+    assert "does not diagnose" in b["caution"]
+    assert (daily.loc[daily["subject"] == "A01", "caution"] == "").all()
+    text = capsys.readouterr().out
+    assert "frequent premature beats on 1 day(s) (B02" in text

@@ -36,7 +36,7 @@ OUTPUT_NAMES = {"daily_csv": "daily.csv", "daily_parquet": "daily.parquet",
                 "provenance": "provenance.json"}
 _ERROR_COLUMNS = ["path", "error_type", "message"]
 _DAY_KEYS = ("window", "n_beats", "artifact_pct", "corrected_pct", "quality", "quality_reason",
-             *DAILY_METRICS)
+             *DAILY_METRICS, "caution")
 _PRELOAD = ("rrkit.io", "rrkit.clean", "rrkit.metrics", "rrkit.windows", "rrkit.daily")
 
 

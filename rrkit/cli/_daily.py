@@ -19,6 +19,8 @@ import click
 
 from ..errors import InputError
 
+ECTOPY_CAUTION = ("rrkit does not diagnose; frequent premature beats are a matter for a "
+                  "clinician, please have these recordings reviewed by qualified staff.")
 CAUTION = ("rrkit is not a medical device and makes no diagnosis; a value outside the band is "
            "a prompt to look at the data and the context. Training decisions rest with "
            "qualified staff.")
@@ -123,6 +125,12 @@ def command(folder, outdir, manifest, pattern, window, tz, wake, pick, clean_met
     if summary.n_failed:
         click.echo(f"{summary.n_failed} files failed or could not be placed: see "
                    f"{outdir / 'errors.csv'}")
+    if len(table) and "caution" in table.columns:
+        flagged = table[table["caution"].fillna("").astype(str) != ""]
+        if len(flagged):
+            who = ", ".join(sorted(flagged["subject"].astype(str).unique()))
+            click.echo(f"frequent premature beats on {len(flagged)} day(s) ({who}; see the "
+                       "caution column): " + ECTOPY_CAUTION)
     if summary.last_date is not None:
         if summary.below_band:
             click.echo(f"7-day ln-RMSSD below the band on {summary.last_date}: "
