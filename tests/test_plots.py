@@ -96,7 +96,6 @@ def test_trend_unknown_subject_and_bad_table(tmp_path):
 
 
 def test_recording_diagnostic_png(tmp_path):
-    pytest.importorskip("rrkit.metrics")
     from rrkit.simulate import inject_artifacts, simulate_rr
 
     rec = simulate_rr(duration_s=360, seed=5)
@@ -116,7 +115,6 @@ def test_recording_diagnostic_png(tmp_path):
 
 
 def test_plot_command_diagnostic_and_trend(tmp_path):
-    pytest.importorskip("rrkit.metrics")
     from rrkit.cli import main
     from rrkit.io import write_rr
     from rrkit.simulate import simulate_rr

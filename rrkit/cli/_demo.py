@@ -306,6 +306,10 @@ def _summary(run, *, lab, agree, ectopy, figures, out, meta, folder) -> str:
             lines.append(f"  {s}: below band since {_since(table, s) or 'earlier this week'}")
     else:
         lines.append("  nobody")
+    hr_up = table[(table["date"] >= week_start) & table["hr_above_band"].fillna(False)]
+    hr_names = sorted(hr_up["subject"].astype(str).unique())
+    lines.append("Resting heart rate (7-day mean) above its band this week: "
+                 + (", ".join(hr_names) if hr_names else "nobody"))
     episodes = below_band_episodes(table)
     long_runs = {s: [r for r in runs if r[0] != r[1]] for s, runs in episodes.items()}
     lines.append("Every run of 7-day ln-RMSSD below the band this season (first - last day):")
