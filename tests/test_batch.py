@@ -404,3 +404,57 @@ def test_frequent_premature_beats_carry_the_caution(tmp_path, capsys):
     assert (daily.loc[daily["subject"] == "A01", "caution"] == "").all()
     text = capsys.readouterr().out
     assert "frequent premature beats on 1 day(s) (B02" in text
+
+
+def _timestamped(path: Path, start: dt.datetime, seed: int) -> Path:
+    rr = simulate_rr(duration_s=370, seed=seed, as_recording=False)
+    ends = [start + dt.timedelta(milliseconds=float(x)) for x in np.cumsum(rr)]
+    lines = ["time,rr_ms"] + [f"{t.isoformat(timespec='milliseconds')},{v:.1f}"
+                              for t, v in zip(ends, rr, strict=True)]
+    path.parent.mkdir(parents=True, exist_ok=True)
+    path.write_text("\n".join(lines) + "\n")
+    return path
+
+
+def test_time_stamps_inside_the_file_fill_what_the_name_lacks(tmp_path):
+    data = tmp_path / "data"
+    # subject from the folder, date from the name, time of day only inside the file
+    _timestamped(data / "A01" / "02.03.2026.csv", dt.datetime(2026, 3, 2, 6, 41, 5), 1)
+    # the name's date disagrees with the file's stamps: the name wins, the time is unknown
+    _timestamped(data / "A01" / "03.03.2026.csv", dt.datetime(2026, 3, 9, 6, 0, 0), 2)
+    # no date in the name at all: the file's stamps place it
+    _timestamped(data / "B02" / "undated.csv", dt.datetime(2026, 3, 3, 7, 15, 0), 3)
+    pattern = "{subject}/[{date:%d.%m.%Y}]*"
+    s = DailySettings(tz="Europe/Berlin")
+    summary = run_daily(data, tmp_path / "out", pattern=pattern, settings=s,
+                        executor=InlineExecutor())
+    t = summary.table.set_index(["subject", "date"])
+
+    def near(text, wall):  # the reader rebuilds the start from the first stamp (ms rounding)
+        got = dt.datetime.fromisoformat(text)
+        want = rrkit.daily.localize(wall, "Europe/Berlin")
+        return abs(got - want) < dt.timedelta(seconds=1)
+
+    a01 = t.loc[("A01", dt.date(2026, 3, 2)), "start_time"]
+    assert near(a01, dt.datetime(2026, 3, 2, 6, 41, 5))
+    assert pd.isna(t.loc[("A01", dt.date(2026, 3, 3)), "start_time"])
+    assert t.loc[("A01", dt.date(2026, 3, 3)), "source"] == "A01/03.03.2026.csv"
+    assert near(t.loc[("B02", dt.date(2026, 3, 3)), "start_time"], dt.datetime(2026, 3, 3, 7, 15))
+    assert summary.n_failed == 0
+
+
+def test_localize_agrees_with_pandas(rng):
+    # pandas' tz_localize (reference library) for wall times through a year in two zones;
+    # ambiguous autumn times are the first occurrence (pandas ambiguous=True, DST)
+    for zone in ("Europe/Berlin", "America/New_York", "Australia/Sydney"):
+        for minutes in rng.integers(0, 365 * 24 * 60, 300):
+            naive = dt.datetime(2026, 1, 1) + dt.timedelta(minutes=int(minutes))
+            try:
+                ref = pd.Timestamp(naive).tz_localize(zone, ambiguous=True,
+                                                      nonexistent="raise")
+            except Exception:  # a wall time the clocks skip
+                with pytest.raises(rrkit.InputError, match="does not exist"):
+                    rrkit.daily.localize(naive, zone)
+                continue
+            got = rrkit.daily.localize(naive, zone)
+            assert got.utcoffset() == ref.utcoffset(), (zone, naive)
