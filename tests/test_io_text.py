@@ -316,3 +316,28 @@ def test_epoch_beat_times_alone(tmp_path):
     assert rec.info.kind == "peaks"
     assert rec.start == datetime(2026, 1, 1, 7, 0, 1, tzinfo=timezone.utc)
     assert rec.rr_ms == pytest.approx([800, 810, 790], abs=1e-3)
+
+
+@pytest.mark.parametrize("hour_step", [-1, 1])
+def test_daylight_saving_change_in_local_times(tmp_path, hour_step):
+    # local wall-clock times (no offset) across a clock change: 03:00 -> 02:00 (autumn) or
+    # 02:00 -> 03:00 (spring); the intervals show no time was lost, so this is no break
+    base = datetime(2026, 10, 25, 2, 59, 58)
+    times, t = [], base
+    for k in range(6):
+        t = t + timedelta(seconds=1)
+        if k == 3:
+            t = t + timedelta(hours=hour_step)
+        times.append(t)
+    text = "time,rr_ms\n" + "".join(f"{x.isoformat()},1000\n" for x in times)
+    rec = read(_write(tmp_path / "dst.csv", text))
+    assert not rec.has_gaps
+    assert rec.info.extra["clock_changes"] == 1
+    assert rec.duration_s == pytest.approx(6.0)
+    # with a UTC offset the same jump is real time: a backward step is an error
+    aware = text.replace(",1000", "+00:00,1000")
+    if hour_step < 0:
+        with pytest.raises(InputError, match="timestamp goes backwards by 3599 s"):
+            read(_write(tmp_path / "dst_utc.csv", aware))
+    else:
+        assert read(_write(tmp_path / "dst_utc.csv", aware)).has_gaps

@@ -28,6 +28,8 @@ from ._wfdb_symbols import BEAT_SYMBOLS
 
 __all__ = ["read_table"]
 
+_DST_S = 3600.0  # a daylight-saving clock change
+
 
 def _resolve_column(table: TextTable, column: str | int, *, what: str) -> int:
     if isinstance(column, (int, np.integer)) and not isinstance(column, bool):
@@ -239,8 +241,12 @@ def read_table(path: str, *, kind: str, unit: str, fs_hz: float | None, column,
             ts, how = clock
             ts_start = None
         extra["timestamps"] = how
-        rr_ms, gaps, beat_symbols, n_breaks, lost_s = _insert_breaks(
-            rr_ms, ts, lines, break_s=break_s, path=table.path, beat_symbols=beat_symbols)
+        local = ts_start is not None and ts_start.tzinfo is None  # wall-clock times
+        rr_ms, gaps, beat_symbols, n_breaks, lost_s, n_clock = _insert_breaks(
+            rr_ms, ts, lines, break_s=break_s, path=table.path, beat_symbols=beat_symbols,
+            local_clock=local)
+        if n_clock:
+            extra["clock_changes"] = n_clock
         extra["n_breaks"] = n_breaks
         extra["break_time_s"] = lost_s
         extra["break_s"] = break_s
@@ -281,9 +287,22 @@ def _timestamps_kept(table, lay, keep):
     return ts, start, how
 
 
-def _insert_breaks(rr_ms, ts_s, lines, *, break_s, path, beat_symbols):
-    """Insert one gap interval wherever the timestamps show uncovered time > ``break_s``."""
+def _insert_breaks(rr_ms, ts_s, lines, *, break_s, path, beat_symbols, local_clock=False):
+    """Insert one gap interval wherever the timestamps show uncovered time > ``break_s``.
+
+    With local clock times (no UTC offset), a step of one hour forward or back where the
+    intervals say no time was lost is a daylight-saving change of the clock, not a break: it is
+    taken out (and counted) rather than raising an error or inserting a one-hour gap.
+    """
     d = np.diff(ts_s)
+    n_clock = 0
+    if local_clock and rr_ms.size > 1:
+        tol = 2.0 if break_s is None else max(break_s, 2.0)
+        shift = d - rr_ms[1:] / 1000.0
+        change = np.abs(np.abs(shift) - _DST_S) <= tol
+        if change.any():
+            d = d - np.sign(shift) * _DST_S * change
+            n_clock = int(change.sum())
     back = np.flatnonzero(d < 0)
     if back.size:
         j = int(back[0]) + 1
@@ -291,11 +310,11 @@ def _insert_breaks(rr_ms, ts_s, lines, *, break_s, path, beat_symbols):
             f"timestamp goes backwards by {-d[j - 1]:g} s from line {int(lines[j - 1])}, expected "
             "times that never decrease", path=path, line=int(lines[j]))
     if break_s is None or rr_ms.size < 2:
-        return rr_ms, None, beat_symbols, 0, 0.0
+        return rr_ms, None, beat_symbols, 0, 0.0, n_clock
     excess_s = d - rr_ms[1:] / 1000.0  # time before interval i+1 that no interval covers
     brk = np.flatnonzero(excess_s > break_s) + 1  # interval index that follows a break
     if brk.size == 0:
-        return rr_ms, None, beat_symbols, 0, 0.0
+        return rr_ms, None, beat_symbols, 0, 0.0, n_clock
     gap_ms = excess_s[brk - 1] * 1000.0
     out = np.insert(rr_ms, brk, gap_ms)
     gaps = np.zeros(out.size, dtype=bool)
@@ -303,4 +322,4 @@ def _insert_breaks(rr_ms, ts_s, lines, *, break_s, path, beat_symbols):
     if beat_symbols is not None:
         # the beat that starts the interval after a break was not annotated in the file
         beat_symbols = np.insert(beat_symbols, brk + 1, "")
-    return out, gaps, beat_symbols, int(brk.size), float(gap_ms.sum() / 1000.0)
+    return out, gaps, beat_symbols, int(brk.size), float(gap_ms.sum() / 1000.0), n_clock
