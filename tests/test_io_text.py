@@ -341,3 +341,14 @@ def test_daylight_saving_change_in_local_times(tmp_path, hour_step):
             read(_write(tmp_path / "dst_utc.csv", aware))
     else:
         assert read(_write(tmp_path / "dst_utc.csv", aware)).has_gaps
+
+
+def test_forced_separator_and_decimal(tmp_path):
+    path = _write(tmp_path / "f.txt", "1,812\n2,790\n3,805\n4,821\n")
+    # counting 1, 2, 3 before the comma: an index column, comma-separated
+    assert read(path, column=1).rr_ms.tolist() == [812, 790, 805, 821]
+    # forced: one column with decimal commas (values in s)
+    rec = read(path, sep="none", kind="rr", unit="s")
+    assert rec.rr_ms.tolist() == pytest.approx([1812, 2790, 3805, 4821])
+    with pytest.raises(InputError, match="both the separator and the decimal mark"):
+        read(path, sep=",", decimal=",")

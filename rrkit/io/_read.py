@@ -88,8 +88,9 @@ def read(
     timestamp_column : str or int, optional
         Column of ISO 8601 times or Unix epoch numbers; default: found by content.
     break_s : float or None
-        With timestamps beside RR intervals, uncovered time longer than this (s) between two
-        rows is a recording break, kept as one gap interval (default 2.0 s). None disables.
+        With timestamps (or a time column in s or ms) beside RR intervals, uncovered time longer
+        than this (s) between two rows is a recording break, kept as one gap interval
+        (default 2.0 s). None disables.
     sep, decimal : str, optional
         Force the separator (``","``, ``";"``, ``"\\t"``, ``" "``, ``"none"``) or the decimal
         mark (``"."``, ``","``) of a text file; by default both are found from the data rows.

@@ -324,7 +324,10 @@ def load_table(path: str | os.PathLike[str], *, sep: str | None = None,
     else:
         chosen_sep = None if sep in ("none", "") else sep
         chosen_dec = "."
-        if chosen_sep not in (None, ",") and any(
+        if chosen_sep is None and any("," in r for r in sample) and all(
+                _DECIMAL_COMMA_RE.match(r) or _NUMBER_RE.match(r) for r in sample):
+            chosen_dec = ","
+        elif chosen_sep not in (None, ",") and any(
                 "," in t for r in sample for t in _split(r, chosen_sep) if _NUMBER_RE.match(t)):
             chosen_dec = ","
     if decimal is not None:
