@@ -323,13 +323,13 @@ def load_table(path: str | os.PathLike[str], *, sep: str | None = None,
         chosen_sep, chosen_dec = _choose_separator(sample, header)
     else:
         chosen_sep = None if sep in ("none", "") else sep
-        chosen_dec = "."
-        if chosen_sep is None and any("," in r for r in sample) and all(
-                _DECIMAL_COMMA_RE.match(r) or _NUMBER_RE.match(r) for r in sample):
-            chosen_dec = ","
-        elif chosen_sep not in (None, ",") and any(
-                "," in t for r in sample for t in _split(r, chosen_sep) if _NUMBER_RE.match(t)):
-            chosen_dec = ","
+        if chosen_sep is None:
+            comma = any("," in r for r in sample) and all(
+                _DECIMAL_COMMA_RE.match(r) or _NUMBER_RE.match(r) for r in sample)
+        else:
+            comma = chosen_sep != "," and any(
+                "," in t for r in sample for t in _split(r, chosen_sep) if _NUMBER_RE.match(t))
+        chosen_dec = "," if comma else "."
     if decimal is not None:
         chosen_dec = decimal
     if chosen_sep == "," and chosen_dec == ",":
