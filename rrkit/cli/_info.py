@@ -48,8 +48,10 @@ def describe(rec: Recording) -> list[tuple[str, str]]:
     info = rec.info
     ex = dict(info.extra)
     rows = [("kind", f"{info.kind}  (decided by: {info.kind_decided_by})")]
-    unit = info.unit if info.unit is not None else "-"
-    rows.append(("unit", f"{unit}  (decided by: {info.unit_decided_by})"))
+    if info.unit is None:  # ECG: the beats are detected, there is no unit to decide
+        rows.append(("unit", f"none  ({info.unit_decided_by})"))
+    else:
+        rows.append(("unit", f"{info.unit}  (decided by: {info.unit_decided_by})"))
     if info.column is not None:
         how = ex.get("column_chosen_by")
         rows.append(("column", info.column + (f"  ({how})" if how else "")))
