@@ -58,9 +58,9 @@ __all__ = ["SquadFiles", "SquadSettings", "generate_squad", "main"]
 
 log = logging.getLogger("rrkit")
 
-# purpose codes in the seeds (never reuse one for another purpose)
-_P_DAYNOISE, _P_MISSING, _P_SERIES, _P_ARTIFACT, _P_TIME, _P_LOAD, _P_LAB, _P_NIGHT, _P_WEAR = (
-    1, 2, 3, 4, 5, 6, 7, 8, 9)
+# purpose codes in the seeds (never reuse one for another purpose; 8 and 9 are the nights and
+# the wearable, in _squad_nights)
+_P_DAYNOISE, _P_MISSING, _P_SERIES, _P_ARTIFACT, _P_TIME, _P_LOAD, _P_LAB = 1, 2, 3, 4, 5, 6, 7
 
 
 @dataclass(frozen=True, slots=True)
@@ -389,6 +389,9 @@ def generate_squad(outdir, *, settings: SquadSettings | None = None, progress=No
 
         nights = write_nights(root, s, progress=progress)
     tables.append(_write(root, "squad.json", _describe(s)))
+    log.info("demo squad: %d mornings (%d unusable, %d missing), %d lab files, %d night files "
+             "written to %s", len(mornings), len(unusable), len(missing), len(lab), len(nights),
+             root)
     return SquadFiles(root=root, mornings=tuple(mornings), unusable=tuple(unusable),
                       missing=tuple(missing), lab=tuple(lab), nights=tuple(nights),
                       tables=tuple(tables))
