@@ -151,3 +151,34 @@ def test_ecg_needs_fs_and_a_long_enough_signal(tmp_path, ecg_mv):
         read(csv, kind="ecg")
     with pytest.raises(InputError, match=r"lasts 1\.00 s, expected at least 2 s"):
         read(csv, kind="ecg", fs=FS_HZ)
+
+
+def test_wfdb_record_and_annotations_written_here(tmp_path, ecg_mv):
+    # a WFDB record and annotation file written with wfdb itself (its writer is the format's
+    # reference implementation): start time from the header, beats from beat symbols only
+    import wfdb
+
+    start = datetime(2026, 3, 1, 6, 45, 0)
+    wfdb.wrsamp("sim", fs=FS_HZ, units=["mV"], sig_name=["ECG"],
+                p_signal=ecg_mv.reshape(-1, 1), fmt=["16"], base_datetime=start,
+                write_dir=str(tmp_path))
+    rec = read(tmp_path / "sim.hea")
+    assert rec.start == start
+    assert rec.info.fs_hz == FS_HZ
+    assert rec.info.extra["column_chosen_by"] == "the only channel"
+    samples = np.round(rec.beat_times_s * FS_HZ).astype(int)
+    symbols = ["N"] * samples.size
+    symbols[5] = "V"
+    # a rhythm change and a noise marker between beats: annotations, not beats
+    extra_samples = [int(samples[2]) + 10, int(samples[7]) + 10]
+    order = np.argsort(np.concatenate([samples, extra_samples]), kind="stable")
+    all_samples = np.concatenate([samples, extra_samples])[order]
+    all_symbols = np.array([*symbols, "+", "~"])[order]
+    aux = ["(N" if s == "+" else "" for s in all_symbols]
+    wfdb.wrann("sim", "atr", all_samples, symbol=list(all_symbols), aux_note=aux, fs=FS_HZ,
+               write_dir=str(tmp_path))
+    ann = read(tmp_path / "sim.atr")
+    np.testing.assert_array_equal(np.round(ann.beat_times_s * FS_HZ).astype(int), samples)
+    assert ann.beat_symbols.tolist() == symbols
+    assert ann.start == start  # from the header beside it
+    assert ann.info.extra["non_beat_annotations_skipped"] == 2
