@@ -110,9 +110,12 @@ def _is_inverted(segments: list[np.ndarray], fs: float) -> tuple[bool, float]:
 def _clean(x: np.ndarray, fs: float) -> np.ndarray:
     import neurokit2 as nk
 
-    with warnings.catch_warnings():
-        warnings.simplefilter("ignore")  # neurokit2 notes on filter settings are not ours
-        return np.asarray(nk.ecg_clean(x, sampling_rate=fs, method="neurokit"), dtype=np.float64)
+    with warnings.catch_warnings(record=True) as caught:
+        warnings.simplefilter("always")
+        out = np.asarray(nk.ecg_clean(x, sampling_rate=fs, method="neurokit"), dtype=np.float64)
+    for w in caught:  # neurokit2's notes on its filter settings: logged, not raised
+        logger.info("rrkit: neurokit2 said: %s", w.message)
+    return out
 
 
 def _peaks(x: np.ndarray, fs: float, detector: str) -> np.ndarray:
