@@ -182,3 +182,12 @@ def test_wfdb_record_and_annotations_written_here(tmp_path, ecg_mv):
     assert ann.beat_symbols.tolist() == symbols
     assert ann.start == start  # from the header beside it
     assert ann.info.extra["non_beat_annotations_skipped"] == 2
+
+
+def test_ecg_table_suggests_fs_from_its_time_column(tmp_path, ecg_mv):
+    csv = tmp_path / "ecg.csv"
+    rows = (f"{k * 4},{v:.5f}" for k, v in enumerate(ecg_mv[:2000].tolist()))
+    csv.write_text("t_ms,ECG\n" + "\n".join(rows) + "\n")
+    # the rate is never taken silently from the file, but the message says what it would be
+    with pytest.raises(InputError, match=r"steps by 4 ms, which would be fs=250"):
+        read(csv)

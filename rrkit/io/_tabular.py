@@ -165,6 +165,10 @@ def read_table(path: str, *, kind: str, unit: str, fs_hz: float | None, column,
     if kind == "ecg" or (kind == "auto" and named_kind == "ecg"):
         from ._ecg import recording_from_signal
 
+        if fs_hz is None:
+            raise InputError(
+                "reading ECG needs its sampling rate; there is no default", path=table.path,
+                hint=_fs_hint(table, lay, col))
         values = parse_numbers(table, col, what="an ECG sample value")
         kind_by = "given" if kind == "ecg" else col_why
         return recording_from_signal(values, fs_hz=fs_hz, path=table.path, detector=detector,
@@ -256,6 +260,22 @@ def read_table(path: str, *, kind: str, unit: str, fs_hz: float | None, column,
                     fs_hz=fs_hz, column=name, extra=extra)
     return Recording.from_rr(rr_ms, start=start, subject=subject, source=table.path, info=info,
                              gaps=gaps, beat_symbols=beat_symbols)
+
+
+def _fs_hint(table: TextTable, lay, value_col: int) -> str:
+    """'pass fs=' with the rate a time column beside the ECG suggests, when there is one."""
+    for k, typ in enumerate(lay["types"]):
+        role = lay["roles"][k]
+        if k == value_col or typ != "number" or role["unit"] not in ("s", "ms"):
+            continue
+        sniff = _sniff_numbers(table, k)
+        if sniff is None or sniff.size < 3:
+            continue
+        step = float(np.median(np.diff(sniff))) * (1.0 if role["unit"] == "s" else 1e-3)
+        if step > 0:
+            return (f"pass fs= in Hz; column {table.names[k]!r} steps by {step * 1000:g} ms, "
+                    f"which would be fs={1.0 / step:g}")
+    return "pass fs= in Hz, for example fs=250"
 
 
 def _relative_clock(table, lay, value_col, keep):
