@@ -138,6 +138,9 @@ def test_hostile_manifest_values_stay_inside(tmp_path):
         h5.visit(names.append)
         assert all(".." not in n and not n.startswith("/") for n in names)
         cols = [h5["daily"][n].attrs["column"] for n in h5["daily"]]
+        by_column = {h5["daily"][n].attrs["column"]: n for n in h5["daily"]}
+        assert by_column["../../escape"].startswith("column_")
+        assert by_column["ln_rmssd_7d"] == "ln_rmssd_7d"
         assert "../../escape" in cols
         assert "daily/../../escape" not in names
     subjects = set(read_store_index(summary.outputs["store"])["subject"])

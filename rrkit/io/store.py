@@ -15,15 +15,18 @@ windows; row ranges in the recordings table say which rows belong to which recor
 A few large datasets instead of thousands of small groups keep writing a season of files
 fast and reading it into pandas or numpy simple. No subject id or file name becomes an HDF5
 name: they are values in the tables; the only names derived from outside text (the daily
-table's extra columns) go through `rrkit.batch.safe_name`. The file is written under a
-temporary name and renamed when complete.
+table's extra columns) are used only when they are plain identifiers, else replaced by
+``column_<index>``. The file is written under a temporary name and renamed when complete.
 """
 
 from __future__ import annotations
 
+import contextlib
 import hashlib
 import json
 import os
+import re
+import tempfile
 from collections.abc import Iterable, Mapping
 from pathlib import Path
 from typing import Any
@@ -51,6 +54,37 @@ _REC_TEXT = ("key", "subject", "source", "sha256", "start", "date", "read_info",
              "clean_summary", "warnings")
 _REC_INT = ("interval_start", "interval_stop", "corrected_start", "corrected_stop",
             "window_start", "window_stop")
+
+
+# The suffix `rrkit.batch` removes after an interrupted run (rrkit.batch._atomic.TMP_SUFFIX).
+_TMP_SUFFIX = ".rrkit-tmp"
+_PLAIN_NAME = re.compile(r"[A-Za-z][A-Za-z0-9_]{0,63}")
+
+
+@contextlib.contextmanager
+def _temporary_beside(path, *, fsync: bool):
+    """A temporary file beside ``path`` that replaces it (`os.replace`) once complete."""
+    path = Path(path)
+    fd, tmp = tempfile.mkstemp(prefix=f".{path.name}.", suffix=_TMP_SUFFIX, dir=path.parent)
+    os.close(fd)
+    mask = os.umask(0)
+    os.umask(mask)
+    os.chmod(tmp, 0o666 & ~mask)
+    try:
+        yield Path(tmp)
+        if fsync:
+            with open(tmp, "rb+") as fh:
+                os.fsync(fh.fileno())
+        os.replace(tmp, path)
+    except BaseException:
+        with contextlib.suppress(FileNotFoundError):
+            os.unlink(tmp)
+        raise
+
+
+def _dataset_name(column: str, index: int) -> str:
+    """The column name when it is a plain identifier, else ``column_<index>`` (never a path)."""
+    return column if _PLAIN_NAME.fullmatch(column) else f"column_{index:03d}"
 
 
 def _json(obj: Any) -> str:
@@ -114,8 +148,6 @@ def write_store(
         The recording keys, in the order written.
     """
     import h5py
-
-    from ..batch._atomic import atomic_path
 
     recs = list(recordings)
     n = len(recs)
@@ -199,7 +231,7 @@ def write_store(
     corrected["gap"] = cat(cor_gap, bool)
     corrected["origin"] = cat(cor_org, np.int64)
 
-    with atomic_path(path, fsync=fsync) as tmp, h5py.File(tmp, "w", track_order=True) as h5:
+    with _temporary_beside(path, fsync=fsync) as tmp, h5py.File(tmp, "w", track_order=True) as h5:
         h5.attrs["format"] = STORE_FORMAT
         h5.attrs["format_version"] = STORE_VERSION
         h5.attrs["rrkit_version"] = __version__
@@ -248,14 +280,14 @@ def _write_table(g, df) -> None:
     import h5py
     import pandas as pd
 
-    from ..batch._safe import safe_name
-
     g.attrs["columns"] = _json([str(c) for c in df.columns])
     g.attrs["n_rows"] = len(df)
     text = h5py.string_dtype("utf-8")
-    for col in df.columns:
+    for i, col in enumerate(df.columns):
         s = df[col]
-        name = safe_name(col)
+        name = _dataset_name(str(col), i)
+        while name in g:  # a manifest column may be called like a replaced one
+            name += "_"
         if pd.api.types.is_bool_dtype(s):
             na = s.isna().to_numpy()
             vals = s.fillna(False).astype(bool).to_numpy()
