@@ -178,7 +178,7 @@ def _lone_decimal_comma(rows: list[str]) -> bool:
     whole = [r.split(",", 1)[0].lstrip("+-") for r in rows]
     if any(len(w) > 9 for w in whole):
         return False
-    ints = [int(w) if w else 0 for w in whole]
+    ints = [int(w) if w.isdigit() else -1 for w in whole]  # "1e-05": no whole part to count
     return not (len(ints) > 2 and all(b - a == 1 for a, b in itertools.pairwise(ints)))
 
 
