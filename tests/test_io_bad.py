@@ -9,6 +9,8 @@ from __future__ import annotations
 from pathlib import Path
 
 import pytest
+from hypothesis import HealthCheck, given, settings
+from hypothesis import strategies as st
 
 from rrkit import InputError, read
 
@@ -98,3 +100,27 @@ def test_ecg_kind_on_non_signal_formats(tmp_path):
     path.write_text("x")
     with pytest.raises(InputError, match="read them with kind='ecg'"):
         read(path, kind="rr")
+
+
+# fragments of real files, shuffled: whatever comes out, read() returns a Recording or raises
+# InputError (never IndexError, ValueError of numpy, or a warning)
+_FRAGMENTS = [*"0123456789.,;\t -+eE\n\r#abcNV:TZ\"'", "nan", "inf", "2026-03-01T07:00:00",
+              "rr_ms", "time_s", "sample", "ecg", "symbol", "\ufeff", "800\n", "0.8\n"]
+
+
+@settings(max_examples=300, deadline=None,
+          suppress_health_check=[HealthCheck.function_scoped_fixture])  # file overwritten
+@given(text=st.lists(st.sampled_from(_FRAGMENTS), max_size=120).map("".join),
+       raw=st.binary(max_size=64), as_text=st.booleans())
+def test_garbage_gives_input_error_only(tmp_path, text, raw, as_text):
+    path = tmp_path / "garbage.txt"
+    path.write_bytes(text.encode("utf-8") if as_text else raw)
+    err = None
+    try:
+        rec = read(path)
+    except InputError as caught:
+        err = caught
+    if err is None:
+        assert rec.n_intervals >= 3
+    else:
+        assert err.path == str(path)  # every message names the file

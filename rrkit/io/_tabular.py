@@ -191,6 +191,10 @@ def read_table(path: str, *, kind: str, unit: str, fs_hz: float | None, column,
                 extra["non_beat_symbols"] = ", ".join(
                     f"{s} x{c}" for s, c in zip(dropped.tolist(), counts.tolist(), strict=True))
             values, lines, sym = values[keep], lines[keep], sym[keep]
+            if values.size == 0:
+                raise InputError(
+                    f"every row is a non-beat annotation ({extra['non_beat_symbols']}) in column "
+                    f"{table.names[lay['sym_col']]!r}, expected beat rows", path=table.path)
         symbols = sym
         names_, counts_ = np.unique(sym, return_counts=True)
         order = np.argsort(-counts_, kind="stable")
@@ -203,6 +207,7 @@ def read_table(path: str, *, kind: str, unit: str, fs_hz: float | None, column,
         use_kind, kind_by = named_kind, col_why
     else:
         use_kind, kind_by = decide_kind(values, fs_hz=fs_hz)
+    check_enough(values.size - (use_kind == "peaks"), path=table.path, what=f"column {name!r}")
 
     if unit != "auto":
         use_unit, unit_by = unit, "given"
