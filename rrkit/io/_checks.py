@@ -70,6 +70,7 @@ def peaks_to_seconds(values: np.ndarray, *, unit: str, fs_hz: float | None, path
 def check_enough(n_intervals: int, *, path: str, what: str) -> None:
     """InputError when fewer than `MIN_INTERVALS` intervals were found."""
     if n_intervals < MIN_INTERVALS:
+        n_intervals = max(n_intervals, 0)  # no beat at all is zero intervals
         raise InputError(
             f"found {n_intervals} interval{'s' if n_intervals != 1 else ''} ({what}), expected "
             f"at least {MIN_INTERVALS} for any analysis (too few beats)", path=path)

@@ -10,7 +10,9 @@ names an ECG lead (``ECG``, ``EKG``, ``MLII``, ``II``, ``V1``..``V6``...), else 
 
 from __future__ import annotations
 
+import contextlib
 import os
+import warnings
 from collections import Counter
 from datetime import datetime
 from pathlib import Path
@@ -49,6 +51,15 @@ def _channel_reason(labels: list[str], k: int, column) -> str:
     if len(labels) == 1:
         return "the only channel"
     return f"first channel labelled as an ECG lead ({labels[k]!r})"
+
+
+@contextlib.contextmanager
+def _quiet_wfdb():
+    """Hide deprecation notices that wfdb's own use of pandas raises (not the user's business)."""
+    with warnings.catch_warnings():
+        warnings.filterwarnings("ignore", category=DeprecationWarning, module=r"wfdb(\.|$)")
+        warnings.filterwarnings("ignore", category=FutureWarning, module=r"wfdb(\.|$)")
+        yield
 
 
 def _pick_channel(labels: list[str], column, path: str) -> int:
@@ -101,15 +112,18 @@ def _wfdb_start(header) -> datetime | None:
 def read_wfdb_record(path: str, *, fs_hz: float | None, column, detector: str,
                      subject: str | None, kind_decided_by: str) -> Recording:
     """Detect beats in one lead of a WFDB record (``.hea`` + signal file)."""
-    wfdb = _need("wfdb", "wfdb")
+    with _quiet_wfdb():
+        wfdb = _need("wfdb", "wfdb")
     prefix = wfdb_prefix(path)
     if not Path(prefix + ".hea").is_file():
         raise InputError(f"WFDB header {prefix + '.hea'} not found, expected beside the signal",
                          path=path)
     try:
-        header = wfdb.rdheader(prefix)
+        with _quiet_wfdb():
+            header = wfdb.rdheader(prefix)
         k = _pick_channel(list(header.sig_name or []), column, path)
-        rec = wfdb.rdrecord(prefix, channels=[k])
+        with _quiet_wfdb():
+            rec = wfdb.rdrecord(prefix, channels=[k])
     except InputError:
         raise
     except (OSError, ValueError, IndexError) as exc:
@@ -129,21 +143,24 @@ def read_wfdb_record(path: str, *, fs_hz: float | None, column, detector: str,
 def read_wfdb_annotations(path: str, *, fs_hz: float | None, subject: str | None,
                           kind_decided_by: str) -> Recording:
     """Reference beats from a WFDB annotation file, beat symbols only (see `BEAT_SYMBOLS`)."""
-    wfdb = _need("wfdb", "wfdb")
+    with _quiet_wfdb():
+        wfdb = _need("wfdb", "wfdb")
     p = Path(path)
     ext = p.suffix.lstrip(".") or "atr"
     prefix = str(p.with_suffix("")) if p.suffix else str(p)
     if not Path(f"{prefix}.{ext}").is_file():
         raise InputError(f"annotation file {prefix}.{ext} not found", path=path)
     try:
-        ann = wfdb.rdann(prefix, ext)
+        with _quiet_wfdb():
+            ann = wfdb.rdann(prefix, ext)
     except (OSError, ValueError, IndexError, KeyError, EOFError) as exc:
         raise InputError(f"cannot read the WFDB annotation file ({exc}), expected WFDB "
                          "annotation format", path=path) from None
     header = None
     if Path(prefix + ".hea").is_file():
         try:
-            header = wfdb.rdheader(prefix)
+            with _quiet_wfdb():
+                header = wfdb.rdheader(prefix)
         except (OSError, ValueError):
             header = None
     file_fs = ann.fs if ann.fs else (header.fs if header is not None else None)
