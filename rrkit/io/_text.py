@@ -8,15 +8,18 @@ Rules (each recorded in `TextTable.extra`):
 
 - ``.gz`` content is recognised by its magic bytes, whatever the file name says.
 - A NUL byte, or more than 1 % control characters, means the file is binary, not text.
-- UTF-8 (with or without BOM) first; files that are not valid UTF-8 are read as cp1252.
+- UTF-16 with a byte-order mark, else UTF-8 (with or without BOM); files that are not valid
+  UTF-8 are read as cp1252.
 - ``\\r\\n``, ``\\r`` and ``\\n`` all end a line; line numbers count every physical line.
 - ``#`` starts a comment (whole line or trailing); blank lines are skipped.
-- The data start at the first line that holds a number (or an ISO 8601 date) and is followed by
-  lines that do too; lines before are header lines, and the last of them names the columns when
-  it has as many fields as the data rows.
+- The data start at the first line that holds a number (or an ISO 8601 date); lines before are
+  header lines, and the last of them names the columns when it has as many fields as the data
+  rows. A worded preamble with stray numbers followed by a header line is skipped too (see
+  `_first_data_row`).
 - Separator: ``;`` if the data rows hold one, else tab, else ``,``, else runs of spaces, else a
-  single column. A single column whose rows all look like ``812,5`` uses a decimal comma. With
-  ``;``, tab or space separators a ``,`` inside numbers is a decimal comma.
+  single column. A single column whose rows all look like ``812,5`` uses a decimal comma (see
+  `_lone_decimal_comma`). With ``;``, tab or space separators a ``,`` inside numbers is a
+  decimal comma. Quotes around fields and a separator ending every row are dropped.
 """
 
 from __future__ import annotations
