@@ -17,7 +17,7 @@ import numpy as np
 from .clean import CleanResult, CleanSettings
 from .errors import InputError
 from .metrics import FREQUENCY_KEYS, NONLINEAR_KEYS, TIME_KEYS, MetricsSettings, merge_settings
-from .metrics import metrics as _metrics
+from .metrics._batch import metrics_many
 from .recording import Recording
 from .windows import Whole, Window, parse_window, resolve_windows
 
@@ -116,11 +116,16 @@ def analyze(
 
         iterator = tqdm(plan, desc=f"analyze {rec.source or ''}".strip(), unit="window",
                         leave=False)
-    for w in iterator:
+    audits = [None if isinstance(w, _NoWindow) else _audit(rec, cr, w) for w in iterator]
+    found = [i for i, a in enumerate(audits) if a is not None]
+    results = metrics_many([audits[i][0] for i in found], s,
+                           breathing_hz=[plan[i].breathing_hz for i in found])
+    by_index = dict(zip(found, results, strict=True))
+    for i, w in enumerate(plan):
         if isinstance(w, _NoWindow):
             rows.append(_empty_row(rec, w.spec, keys, clean_checked=cr is not None))
         else:
-            rows.append(_row(rec, cr, w, s, keys))
+            rows.append(_row(rec, w, audits[i][1], by_index[i], keys))
     df = pd.DataFrame(rows, columns=list(WINDOW_COLUMNS) + keys)
     for col in ("start_time", "end_time"):
         if rec.start is not None:
@@ -164,8 +169,8 @@ def _abs_time(rec: Recording, t_s: float):
     return rec.start + timedelta(seconds=float(t_s))
 
 
-def _row(rec: Recording, cr: CleanResult | None, w: Window, s: MetricsSettings,
-         keys: list[str]) -> dict[str, Any]:
+def _audit(rec: Recording, cr: CleanResult | None, w: Window):
+    """The window's corrected recording and its audit fields."""
     notes: list[str] = []
     if w.clipped:
         a, b = w.extra["requested_s"]
@@ -176,23 +181,22 @@ def _row(rec: Recording, cr: CleanResult | None, w: Window, s: MetricsSettings,
     if cr is not None:
         sub = cr.window(w.start_s, w.end_s)
         summ = sub.summary
-        data = sub.recording
-        artifact, corrected = summ.artifact_pct, summ.corrected_pct
-        quality, reason = summ.quality, summ.quality_reason
         if summ.caution:
             notes.append(f"caution: {summ.caution}")
-    else:
-        data = rec.slice(w.start_s, w.end_s)
-        artifact = corrected = float("nan")
-        quality, reason = "unchecked", "not cleaned"
-    m = _metrics(data, settings=s, breathing_hz=w.breathing_hz)
-    notes += m.notes
+        return sub.recording, (summ.artifact_pct, summ.corrected_pct, summ.quality,
+                               summ.quality_reason, notes)
+    nan = float("nan")
+    return rec.slice(w.start_s, w.end_s), (nan, nan, "unchecked", "not cleaned", notes)
+
+
+def _row(rec: Recording, w: Window, audit, m, keys: list[str]) -> dict[str, Any]:
+    artifact, corrected, quality, reason, notes = audit
     row = {
         "source": rec.source, "subject": rec.subject, "window": w.label,
         "start_s": w.start_s, "end_s": w.end_s,
         "start_time": _abs_time(rec, w.start_s), "end_time": _abs_time(rec, w.end_s),
         "artifact_pct": artifact, "corrected_pct": corrected, "quality": quality,
-        "quality_reason": reason, "notes": NOTE_SEPARATOR.join(notes),
+        "quality_reason": reason, "notes": NOTE_SEPARATOR.join(notes + m.notes),
     }
     for k in keys:
         row[k] = m[k]

@@ -206,23 +206,33 @@ def metrics(
     if breathing_hz is not None:
         breathing_hz = check_range("breathing_hz", breathing_hz, low=0.0, low_inclusive=False,
                                    unit="Hz")
+    return compute(rec, s, breathing_hz=breathing_hz, clean_settings=clean_settings)
+
+
+def compute(rec: Recording, s: MetricsSettings, *, breathing_hz: float | None = None,
+            clean_settings: Any = None, pre: dict[str, Any] | None = None) -> MetricsResult:
+    """`metrics` after argument checks: ``rec`` and ``s`` as given, ``pre`` holding values the
+    batched path (`rrkit.metrics._batch`) already computed for this recording."""
+    pre = pre or {}
     bounds = _run_bounds(rec.gaps)
     rr = rec.rr_ms
     segments = [rr[a:b] for a, b in bounds]
     values: dict[str, float] = {}
     notes: list[str] = []
     if "time" in s.domains:
-        v, n = time_domain(segments, n_beats=rec.n_beats, duration_s=rec.duration_s)
+        v, n = time_domain(segments, n_beats=rec.n_beats, duration_s=rec.duration_s,
+                           tinn_ms=pre.get("tinn_ms"))
         values.update(v)
         notes += n
     if "frequency" in s.domains:
         t_end = rec.interval_times_s
         runs = [(t_end[a:b], rr[a:b]) for a, b in bounds]
-        v, n, _ = frequency_domain(runs, s, breathing_hz=breathing_hz)
+        v, n, _ = frequency_domain(runs, s, breathing_hz=breathing_hz,
+                                   estimate=pre.get("estimate"))
         values.update(v)
         notes += n
     if "nonlinear" in s.domains:
-        v, n = nonlinear_domain(segments, s)
+        v, n = nonlinear_domain(segments, s, dfa=pre.get("dfa"), sampen=pre.get("sampen"))
         values.update(v)
         notes += n
     return MetricsResult(values, notes=notes, settings=s, clean_settings=clean_settings)

@@ -101,7 +101,9 @@ class MetricsSettings:
         half-overlapping Hann segments that use every sample; resolution 1/150 Hz). A shorter
         run is analysed as one segment, zero-padded to the same frequency grid.
     welch_overlap : float
-        Fraction of overlap between Welch segments, 0.5 (the usual choice for a Hann window).
+        Least fraction of overlap between Welch segments, 0.5 (the usual choice for a Hann
+        window); segments are spread evenly from the first sample to the last, so none is left
+        out.
     lomb_oversample : int
         Lomb-Scargle frequency grid step ``1 / (oversample * T)``, 4 (common practice).
     ar_order : int

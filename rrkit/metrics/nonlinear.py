@@ -280,7 +280,9 @@ def sample_entropy(segments: list[np.ndarray], *, m: int = 2, r: float,
     return float(-math.log(a / b)), a, b
 
 
-def nonlinear_domain(segments: list[np.ndarray], s: MetricsSettings
+def nonlinear_domain(segments: list[np.ndarray], s: MetricsSettings, *,
+                     dfa: tuple[float, float] | None = None,
+                     sampen: tuple[float, int, int] | None = None,
                      ) -> tuple[dict[str, float], list[str]]:
     """Poincaré SD1/SD2, DFA alpha1/alpha2 and SampEn of NN runs, with notes for every NaN.
 
@@ -288,7 +290,8 @@ def nonlinear_domain(segments: list[np.ndarray], s: MetricsSettings
     -----
     ``sampen`` uses ``m = s.sampen_m`` and ``r = s.sampen_r * SD(NN, ddof=1)``. DFA alpha1 uses
     box sizes ``s.dfa_alpha1_beats`` (4-16), alpha2 ``s.dfa_alpha2_beats`` (16-64), non-overlapping
-    boxes (see `dfa_fluctuations`).
+    boxes (see `dfa_fluctuations`). ``dfa`` and ``sampen`` pass values already computed for
+    these intervals (the batched path of `rrkit.analyze`).
     """
     out = dict.fromkeys(NONLINEAR_KEYS, _NAN)
     notes: list[str] = []
@@ -301,7 +304,7 @@ def nonlinear_domain(segments: list[np.ndarray], s: MetricsSettings
     elif sd2 > 0:
         out["sd1_sd2"] = sd1 / sd2
     ranges = (s.dfa_alpha1_beats, s.dfa_alpha2_beats)
-    alphas = dfa_alphas(segs, ranges, min_boxes=s.dfa_min_boxes)
+    alphas = dfa_alphas(segs, ranges, min_boxes=s.dfa_min_boxes) if dfa is None else dfa
     for key, (_, hi), value in zip(("dfa_alpha1", "dfa_alpha2"), ranges, alphas, strict=True):
         out[key] = value
         if not np.isfinite(value):
@@ -311,10 +314,13 @@ def nonlinear_domain(segments: list[np.ndarray], s: MetricsSettings
         notes.append(f"sampen: NaN, needs at least {s.sampen_min_beats} NN intervals; "
                      f"the window has {n}")
     else:
-        nn = segs[0] if len(segs) == 1 else np.concatenate(segs)
-        dev = nn - float(nn.sum()) / n
-        sd = math.sqrt(float(dev @ dev) / (n - 1))
-        value, a, b = sample_entropy(segs, m=s.sampen_m, r=s.sampen_r * sd)
+        if sampen is None:
+            nn = segs[0] if len(segs) == 1 else np.concatenate(segs)
+            dev = nn - float(nn.sum()) / n
+            sd = math.sqrt(float(dev @ dev) / (n - 1))
+            value, a, b = sample_entropy(segs, m=s.sampen_m, r=s.sampen_r * sd)
+        else:
+            value, a, b = sampen
         out["sampen"] = value
         if not np.isfinite(value):
             notes.append(f"sampen: NaN, undefined with {a} matches of length {s.sampen_m + 1} and "

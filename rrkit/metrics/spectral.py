@@ -11,7 +11,8 @@ Three estimators
 ``welch``
     Cubic-spline resampling at ``resample_hz`` (4 Hz), detrending (smoothness priors, Tarvainen
     et al. 2002, or linear), Welch's averaged periodogram with a Hann window, segments of
-    ``welch_segment_s`` (150 s) overlapping by ``welch_overlap`` (50 %), one-sided density.
+    ``welch_segment_s`` (150 s) overlapping by at least ``welch_overlap`` (50 %) and spread
+    evenly from the first sample to the last (`segment_starts`), one-sided density.
 ``lomb``
     Lomb-Scargle periodogram of the mean-removed intervals at their own beat times (no
     resampling, no detrending beyond the mean), scaled to a one-sided density
@@ -143,22 +144,42 @@ def smoothness_priors_detrend(x: np.ndarray, lam: float) -> np.ndarray:
     return x - trend
 
 
-def _welch_density(x: np.ndarray, fs: float, nperseg: int, noverlap: int, nfft: int):
-    """One-sided Welch density of ``x`` (Hann window, segment means removed); as
-    `scipy.signal.welch` with ``detrend="constant"``, ``scaling="density"``."""
+@lru_cache(maxsize=256)
+def segment_starts(n: int, nperseg: int, noverlap: int) -> np.ndarray:
+    """Start indices of the Welch segments of an ``n``-sample series.
+
+    As many segments as a step of ``nperseg - noverlap`` needs to reach the end, spread evenly
+    from the first sample to the last (so no sample is left out and the overlap is at least
+    ``noverlap``). A 5-minute series at 4 Hz with 150-s segments gets three, at 0, ~75 and
+    ~150 s.
+    """
     step = nperseg - noverlap
-    nseg = 1 + (x.size - nperseg) // step
-    segs = np.lib.stride_tricks.sliding_window_view(x, nperseg)[::step][:nseg]
+    nseg = 1 if n <= nperseg else 1 + math.ceil((n - nperseg) / step)
+    starts = np.rint(np.linspace(0, n - nperseg, nseg)).astype(np.int64)
+    starts.flags.writeable = False
+    return starts
+
+
+def _onesided(p: np.ndarray, nfft: int) -> np.ndarray:
+    if nfft % 2:
+        p[..., 1:] *= 2.0
+    else:
+        p[..., 1:-1] *= 2.0
+    return p
+
+
+def _welch_density(x: np.ndarray, fs: float, nperseg: int, noverlap: int, nfft: int):
+    """One-sided Welch density of ``x``: Hann window, segment means removed, segments from
+    `segment_starts`; the scaling of `scipy.signal.welch` (``scaling="density"``)."""
+    starts = segment_starts(x.size, nperseg, noverlap)
+    segs = np.lib.stride_tricks.sliding_window_view(x, nperseg)[starts]
     win = _hann(nperseg)
     segs = segs - segs.mean(axis=1, keepdims=True)
     spec = np.fft.rfft(segs * win, n=nfft, axis=1)
     p = (spec.real ** 2 + spec.imag ** 2).mean(axis=0) / (fs * float(np.dot(win, win)))
-    if nfft % 2:
-        p[1:] *= 2.0
-    else:
-        p[1:-1] *= 2.0
+    _onesided(p, nfft)
     f = np.arange(p.size) * (fs / nfft)
-    return f, p, nseg
+    return f, p, starts.size
 
 
 @lru_cache(maxsize=16)
@@ -269,7 +290,7 @@ def _peak(est: PsdEstimate, band: tuple[float, float]) -> float:
 
 
 def frequency_domain(runs: list[tuple[np.ndarray, np.ndarray]], s: MetricsSettings, *,
-                     breathing_hz: float | None = None
+                     breathing_hz: float | None = None, estimate: PsdEstimate | None = None,
                      ) -> tuple[dict[str, float], list[str], PsdEstimate | None]:
     """Frequency-domain metrics of NN-interval runs.
 
@@ -281,6 +302,8 @@ def frequency_domain(runs: list[tuple[np.ndarray, np.ndarray]], s: MetricsSettin
         PSD method, bands, resampling, detrending, minimum lengths, breathing-peak rule.
     breathing_hz : float, optional
         Breathing rate stated for the window (protocol, events table), in Hz.
+    estimate : PsdEstimate, optional
+        The spectrum of these runs, already computed (the batched path of `rrkit.analyze`).
 
     Returns
     -------
@@ -307,7 +330,7 @@ def frequency_domain(runs: list[tuple[np.ndarray, np.ndarray]], s: MetricsSettin
     out = dict.fromkeys(FREQUENCY_KEYS, _NAN)
     notes: list[str] = []
     b: Bands = s.bands
-    est = estimate_psd(runs, s)
+    est = estimate_psd(runs, s) if estimate is None else estimate
     if est is None:
         longest = max(((t[-1] - t[0]) + rr[0] / 1000.0 for t, rr in runs if rr.size), default=0.0)
         notes.append(

@@ -93,8 +93,8 @@ def _median(x: np.ndarray) -> float:
     return 0.5 * (float(part[k - 1]) + float(part[k]))
 
 
-def time_domain(segments: list[np.ndarray], *, n_beats: int, duration_s: float
-                ) -> tuple[dict[str, float], list[str]]:
+def time_domain(segments: list[np.ndarray], *, n_beats: int, duration_s: float,
+                tinn_ms: float | None = None) -> tuple[dict[str, float], list[str]]:
     """Time-domain metrics of NN-interval runs.
 
     Parameters
@@ -105,6 +105,8 @@ def time_domain(segments: list[np.ndarray], *, n_beats: int, duration_s: float
         Beats in the window (reported as ``n_beats``).
     duration_s : float
         Time from the first to the last beat, in s (gaps included).
+    tinn_ms : float, optional
+        TINN already computed for these intervals (the batched path of `rrkit.analyze`).
 
     Returns
     -------
@@ -178,7 +180,7 @@ def time_domain(segments: list[np.ndarray], *, n_beats: int, duration_s: float
     else:
         notes.append("sdsd_ms: NaN, fewer than 2 successive differences")
     out["hrv_triangular_index"] = triangular_index(nn)
-    out["tinn_ms"] = tinn(nn)
+    out["tinn_ms"] = tinn(nn) if tinn_ms is None else float(tinn_ms)
     if not np.isfinite(out["tinn_ms"]):
         notes.append("tinn_ms: NaN, the NN histogram has fewer than 3 bins")
     return out, notes
