@@ -103,16 +103,18 @@ def _is_recording_name(name: str, extensions: tuple[str, ...]) -> bool:
 
 
 def _walk(root: Path, exclude: list[Path], extensions: tuple[str, ...]) -> tuple[list[Path], int]:
+    # root is resolved by the caller; paths below it are built from it (no per-file resolve)
     files: list[Path] = []
     ignored = 0
     excl = {p.resolve() for p in exclude}
+    excl_names = {p.name for p in excl}
     for dirpath, dirnames, filenames in os.walk(root):
         here = Path(dirpath)
         dirnames[:] = sorted(d for d in dirnames
                              if not d.startswith(".") and (here / d).resolve() not in excl)
         for name in sorted(filenames):
             p = here / name
-            if name.startswith(".") or p.resolve() in excl:
+            if name.startswith(".") or (name in excl_names and p.resolve() in excl):
                 continue
             if _is_recording_name(name, extensions):
                 files.append(p)
@@ -266,7 +268,8 @@ def discover(
     excl = [Path(e) for e in exclude]
     if manifest is not None:
         excl.append(Path(manifest))
-    files, ignored = _walk(root, excl, extensions)
+    root_res = root.resolve()
+    files, ignored = _walk(root_res, excl, extensions)
     problems: list[tuple[str, str, str]] = []
     entries: dict[Path, tuple[int, dict]] = {}
     if manifest is not None:
@@ -276,11 +279,12 @@ def discover(
         pat = pattern if isinstance(pattern, FilenamePattern) else FilenamePattern(pattern)
     elif manifest is None:
         pat = FilenamePattern(DEFAULT_PATTERN)
-    root_res = root.resolve()
     candidates: list[Candidate] = []
     seen: set[Path] = set()
     for p in files:
-        full = p.resolve()
+        full = p
+        if entries and full not in entries:
+            full = p.resolve()  # a symbolic link inside the folder
         seen.add(full)
         rel = _rel(full, root_res)
         if full in entries:

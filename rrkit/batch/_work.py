@@ -29,10 +29,10 @@ from ._atomic import atomic_path
 __all__ = ["ARRAY_NAMES", "ResultCache", "process_and_cache", "process_file", "settings_hash"]
 
 #: Arrays a successful result carries (for the HDF5 store).
-ARRAY_NAMES = ("raw_beat_times_s", "raw_rr_ms", "raw_gaps", "labels", "changed",
+ARRAY_NAMES = ("raw_beat_times_s", "raw_rr_ms", "raw_gaps", "label_codes", "changed",
                "corrected_beat_times_s", "corrected_rr_ms", "corrected_gaps", "origin")
 CACHE_DIR = ".rrkit-cache"
-_CACHE_FORMAT = 1
+_CACHE_FORMAT = 2
 _MAGIC = b"RRKITC01"
 
 
@@ -44,6 +44,21 @@ def settings_hash(settings: DailySettings) -> str:
 
 def _one_line(text: str) -> str:
     return " ".join(str(text).split())
+
+
+def label_codes(labels) -> np.ndarray:
+    """Labels as uint8 indices into `rrkit.clean.LABELS` (compact to send, cache and store)."""
+    from ..clean import LABELS
+
+    names = np.asarray(LABELS)
+    order = np.argsort(names)
+    lab = np.asarray(labels, dtype=str)
+    pos = np.clip(np.searchsorted(names[order], lab), 0, names.size - 1)
+    codes = order[pos].astype(np.uint8)
+    bad = names[codes] != lab
+    if bad.any():
+        raise ValueError(f"unknown interval label {lab[bad][0]!r}")
+    return codes
 
 
 def process_file(task: tuple[str, str, str], *, settings: DailySettings) -> dict[str, Any]:
@@ -85,7 +100,7 @@ def process_file(task: tuple[str, str, str], *, settings: DailySettings) -> dict
                 "raw_beat_times_s": np.asarray(rec.beat_times_s),
                 "raw_rr_ms": np.asarray(rec.rr_ms),
                 "raw_gaps": np.asarray(rec.gaps),
-                "labels": np.asarray(cr.labels, dtype=str),
+                "label_codes": label_codes(cr.labels),
                 "changed": np.asarray(cr.changed, dtype=bool),
                 "corrected_beat_times_s": np.asarray(cr.recording.beat_times_s),
                 "corrected_rr_ms": np.asarray(cr.recording.rr_ms),

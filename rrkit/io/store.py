@@ -34,6 +34,7 @@ from typing import Any
 import numpy as np
 
 from .._version import __version__
+from ..clean._result import LABELS
 from ..errors import InputError
 
 __all__ = [
@@ -133,7 +134,8 @@ def write_store(
         One per recording: ``subject``, ``source``, ``sha256``, ``start`` (ISO or None),
         ``date`` (ISO or None), ``used_in_daily`` (bool), ``read_info``, ``clean_summary``
         (mappings), ``warnings`` (list of str), ``rows`` (list of dicts, one per window) and
-        ``arrays``: ``raw_beat_times_s, raw_rr_ms, raw_gaps, labels, changed,
+        ``arrays``: ``raw_beat_times_s, raw_rr_ms, raw_gaps, label_codes`` (uint8 indices into
+        `rrkit.clean.LABELS`), ``changed,
         corrected_beat_times_s, corrected_rr_ms, corrected_gaps, origin``.
     daily : pandas.DataFrame, optional
         The daily table, stored under ``/daily``.
@@ -186,7 +188,7 @@ def write_store(
         raw_t.append(rt[1:])
         raw_rr.append(np.asarray(a["raw_rr_ms"], dtype=np.float64))
         raw_gap.append(np.asarray(a["raw_gaps"], dtype=bool))
-        raw_lab.append(np.asarray(a["labels"], dtype=str))
+        raw_lab.append(np.asarray(a["label_codes"], dtype=np.uint8))
         raw_chg.append(np.asarray(a["changed"], dtype=bool))
         cor_t.append(ct[1:])
         cor_rr.append(np.asarray(a["corrected_rr_ms"], dtype=np.float64))
@@ -210,16 +212,15 @@ def write_store(
         return np.concatenate(parts).astype(dtype, copy=False) if parts else np.zeros(0, dtype)
 
     ids = np.repeat(np.arange(n, dtype=np.int32), np.asarray(n_raw, dtype=np.int64))
-    labels = cat(raw_lab, str)
-    width = max(1, int(labels.dtype.itemsize // 4)) if labels.size else 1
+    label_enum = h5py.enum_dtype({name: i for i, name in enumerate(LABELS)}, basetype="u1")
     intervals = np.zeros(ids.size, dtype=[
         ("recording", np.int32), ("time_s", np.float64), ("rr_ms", np.float64),
-        ("gap", np.bool_), ("label", f"S{width}"), ("changed", np.bool_)])
+        ("gap", np.bool_), ("label", label_enum), ("changed", np.bool_)])
     intervals["recording"] = ids
     intervals["time_s"] = cat(raw_t, np.float64)
     intervals["rr_ms"] = cat(raw_rr, np.float64)
     intervals["gap"] = cat(raw_gap, bool)
-    intervals["label"] = labels.astype(f"S{width}")
+    intervals["label"] = cat(raw_lab, np.uint8)
     intervals["changed"] = cat(raw_chg, bool)
     cids = np.repeat(np.arange(n, dtype=np.int32), np.asarray(n_cor, dtype=np.int64))
     corrected = np.zeros(cids.size, dtype=[
@@ -401,7 +402,7 @@ def read_store_recording(path: str | os.PathLike[str], key: str | int) -> dict[s
     return {
         "raw": _rec(float(row["t0_s"]), iv),
         "corrected": _rec(float(row["corrected_t0_s"]), cv),
-        "labels": iv["label"].astype(str),
+        "labels": np.asarray(LABELS)[iv["label"].astype(np.intp)],
         "changed": iv["changed"].astype(bool),
         "origin": cv["origin"].astype(np.int64),
         "windows": _decode(wv),
