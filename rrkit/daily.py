@@ -326,8 +326,9 @@ def measure_recording(recording: Recording, *, settings: DailySettings | None = 
             reason = (f"{summ.corrected_pct:.1f} % of intervals corrected "
                       f"(limit {s.reject_corrected_pct:g} %)")
         try:
-            m = metrics(wcr)
-            values = {k: float(v) for k, v in m.items()}
+            m = metrics(wcr, psd=s.psd, breathing_hz=getattr(w, "breathing_hz", None))
+            values = {k: float(v) for k, v in m.items()
+                      if isinstance(v, (int, float, np.integer, np.floating))}
             notes = list(getattr(m, "notes", []))
         except InputError as exc:
             values, notes = {}, [str(exc)]

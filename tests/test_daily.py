@@ -295,3 +295,13 @@ def test_select_days_span_options():
         select_days(t, first_date="2026-03-05", last_date="2026-03-04")
     with pytest.raises(rrkit.InputError, match="first_date must be a date"):
         select_days(t, first_date="March")
+
+
+def test_measure_recording_passes_the_spectral_method():
+    rec = simulate_rr(duration_s=380, seed=4)
+    rows, cr = measure_recording(rec, settings=DailySettings(psd="lomb"))
+    w = rrkit.resolve_windows(rrkit.MORNING, rec)[0]
+    m = rrkit.metrics(cr.window(w.start_s, w.end_s), psd="lomb")
+    assert rows[0]["hf_ms2"] == pytest.approx(m["hf_ms2"], rel=1e-12)
+    welch = measure_recording(rec)[0][0]["hf_ms2"]
+    assert welch != pytest.approx(m["hf_ms2"], rel=1e-6)
