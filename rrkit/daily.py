@@ -183,6 +183,12 @@ class DailySettings:
             raise InputError(f"wake_start must be before wake_end; got {self.wake_start!r} and "
                              f"{self.wake_end!r}")
         check_option("pick", self.pick, PICK_RULES)
+        from .clean._settings import METHODS, STRATEGIES
+        from .metrics._settings import PSD_METHODS
+
+        check_option("clean", self.clean, METHODS)
+        check_option("strategy", self.strategy, STRATEGIES)
+        check_option("psd", self.psd, PSD_METHODS)
         check_range("reject_corrected_pct", self.reject_corrected_pct, low=0.0, high=100.0,
                     unit="%")
         check_range("min_coverage", self.min_coverage, low=0.0, high=1.0)

@@ -172,6 +172,10 @@ def test_settings_validation():
         BaselineSettings(rolling_min_days=8)
     with pytest.raises(rrkit.InputError, match="pick must be one of"):
         DailySettings(pick="best")
+    with pytest.raises(rrkit.InputError, match="did you mean 'welch'"):
+        DailySettings(psd="welsh")
+    with pytest.raises(rrkit.InputError, match="strategy must be one of"):
+        DailySettings(strategy="guess")
 
 
 # ----------------------------------------------------------------------------- time zones
