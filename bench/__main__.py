@@ -104,6 +104,10 @@ def main(argv: list[str] | None = None) -> int:
                                              "repeat": args.repeat},
                       machine=machine, started=started, wall_s=wall)
         print(f"\nresults written to {out}")
+        if names == list(CASES) and not args.quick and args.output is None:
+            from .section import main as write_section
+
+            write_section([str(out), "-o", str(HERE / "PERFORMANCE_SECTION.md")])
     return 1 if any(r.error for r in results) else 0
 
 

@@ -1,7 +1,7 @@
 """Run the rrkit night pipeline on one RR file in a fresh process; print time and memory as JSON.
 
 Used by the ``scaling`` case: a fresh process per size, so that the peak resident memory
-(``resource.getrusage``) belongs to that size alone. Order: imports, one measured run (its peak
+(``VmHWM``, see `_rss_mb`) belongs to that size alone. Order: imports, one measured run (its peak
 RSS is reported), one run under ``tracemalloc`` (peak of traced allocations, numpy buffers
 included), then the timed repetitions.
 
@@ -23,7 +23,20 @@ import tracemalloc
 
 
 def _rss_mb() -> float:
-    kb = resource.getrusage(resource.RUSAGE_SELF).ru_maxrss  # KiB on Linux
+    """Peak resident memory of this process so far, in MiB.
+
+    On Linux ``VmHWM`` of ``/proc/self/status``: it belongs to this program's own address space.
+    (``ru_maxrss`` is not used there: it carries over the parent's peak through fork and exec,
+    so a child started by a large parent would report the parent's size.)
+    """
+    try:
+        with open("/proc/self/status", encoding="ascii") as fh:
+            for line in fh:
+                if line.startswith("VmHWM:"):
+                    return int(line.split()[1]) / 1024.0
+    except OSError:
+        pass
+    kb = resource.getrusage(resource.RUSAGE_SELF).ru_maxrss  # KiB on Linux, bytes on macOS
     return kb / 1024.0 if sys.platform != "darwin" else kb / 2**20
 
 

@@ -69,9 +69,7 @@ def run(cfg) -> CaseResult:
     peaks = night.peaks
     rec = night.recording
     idx = night.artifact_intervals
-    res.params = {"duration_h": round(rec.duration_s / 3600, 2), "beats": int(rec.n_beats),
-                  "injected_artifacts": int(idx.size),
-                  "artifact_pct": round(100 * idx.size / rec.n_intervals, 2)}
+    res.params = {"duration_h": round(rec.duration_s / 3600, 2), "beats": int(rec.n_beats)}
 
     def rr_side():
         return rrkit.clean(rrkit.Recording.from_peak_times(peaks / FS_HZ), method="drr")
@@ -97,6 +95,8 @@ def run(cfg) -> CaseResult:
     agree = agree_n / total if total else float("nan")
     res.metrics["agreement_per_class"] = per_class
     res.params["injected_events"] = total
+    res.params["events_pct"] = round(100 * total / rec.n_intervals, 2)
+    res.params["artifact_labelled_intervals"] = int(idx.size)
     worst = min(per_class.items(), key=lambda kv: kv[1]["agree"]) if per_class else None
     res.checks.append(Check(
         "flags agree on injected artifacts", bool(total) and agree >= AGREE_MIN,

@@ -64,15 +64,15 @@ def run(cfg) -> CaseResult:
     res.checks.append(Check(
         "windows cover every size", all(per_size[n]["n_windows"] > 0 for n in sizes),
         ", ".join(f"{n}: {per_size[n]['n_windows']} windows" for n in sizes)))
-    res.targets.append(Target(f"time exponent {fit_from[0]:g}..{big:g} beats", expo, "<=",
+    res.targets.append(Target(f"time exponent {fit_from[0]:,}..{big:,} beats", expo, "<=",
                               EXPONENT_MAX, unit=""))
-    res.targets.append(Target(f"peak RSS at {big:g} beats", per_size[big]["peak_rss_mb"], "<=",
+    res.targets.append(Target(f"peak RSS at {big:,} beats", per_size[big]["peak_rss_mb"], "<=",
                               MEMORY_MAX_MB, unit="MB"))
     res.notes.append(
         "peak RSS includes the interpreter and imports ("
         f"{per_size[big]['rss_after_imports_mb']:.0f} MB after imports); tracemalloc peak of the "
-        f"pipeline alone at {big:g} beats: {per_size[big]['tracemalloc_peak_mb']:.0f} MB")
+        f"pipeline alone at {big:,} beats: {per_size[big]['tracemalloc_peak_mb']:.0f} MB")
     res.notes.append("time per beat: " + ", ".join(
-        f"{n:g}: {per_size[n]['us_per_beat']:.1f} µs" for n in sizes))
+        f"{n:,}: {per_size[n]['us_per_beat']:.1f} µs" for n in sizes))
     res.elapsed_s = time.perf_counter() - t_case
     return res
