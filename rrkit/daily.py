@@ -189,6 +189,7 @@ class DailySettings:
         check_option("clean", self.clean, METHODS)
         check_option("strategy", self.strategy, STRATEGIES)
         check_option("psd", self.psd, PSD_METHODS)
+        self.window_spec()  # a bad window text is a usage error, before any file is read
         check_range("reject_corrected_pct", self.reject_corrected_pct, low=0.0, high=100.0,
                     unit="%")
         check_range("min_coverage", self.min_coverage, low=0.0, high=1.0)

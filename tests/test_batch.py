@@ -204,6 +204,9 @@ def test_usage_error_exit_code(tmp_path, capsys):
     assert main(["daily", str(tmp_path / "d"), "-o", str(tmp_path / "o"), "--tz", "Nowhere/X"]) == 2
     assert "unknown time zone" in capsys.readouterr().err
     assert main(["daily", str(tmp_path / "nope"), "-o", str(tmp_path / "o")]) == 2
+    bad_window = ["daily", str(tmp_path / "d"), "-o", str(tmp_path / "o"), "--window", "mornin"]
+    assert main(bad_window) == 2
+    assert "unknown window 'mornin'" in capsys.readouterr().err
 
 
 # ----------------------------------------------------------------------------- resume
