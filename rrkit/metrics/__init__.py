@@ -221,7 +221,7 @@ def compute(rec: Recording, s: MetricsSettings, *, breathing_hz: float | None = 
     notes: list[str] = []
     if "time" in s.domains:
         v, n = time_domain(segments, n_beats=rec.n_beats, duration_s=rec.duration_s,
-                           tinn_ms=pre.get("tinn_ms"))
+                           tinn_ms=pre.get("tinn_ms"), sums=pre.get("sums"))
         values.update(v)
         notes += n
     if "frequency" in s.domains:
@@ -232,7 +232,8 @@ def compute(rec: Recording, s: MetricsSettings, *, breathing_hz: float | None = 
         values.update(v)
         notes += n
     if "nonlinear" in s.domains:
-        v, n = nonlinear_domain(segments, s, dfa=pre.get("dfa"), sampen=pre.get("sampen"))
+        v, n = nonlinear_domain(segments, s, dfa=pre.get("dfa"), sampen=pre.get("sampen"),
+                                sd12=pre.get("sd12"))
         values.update(v)
         notes += n
     return MetricsResult(values, notes=notes, settings=s, clean_settings=clean_settings)

@@ -35,7 +35,7 @@ from .spectral import (
 )
 from .time import HIST_BIN_MS
 
-__all__ = ["metrics_many"]
+__all__ = ["WindowView", "metrics_many"]
 
 #: From this many windows on, SampEn and DFA run in compiled loops (`rrkit.metrics._kernels`,
 #: numba); below it, numba's import and compile time would outweigh the gain.
@@ -46,6 +46,41 @@ _CHUNK = 64
 _MAX_PAIRS = 60_000
 
 
+class WindowView:
+    """The beats of one window as read-only views of a recording's arrays: what
+    `rrkit.Recording.slice` gives, without building (and validating again) a new `Recording`.
+    Has the attributes the metric functions read."""
+
+    __slots__ = ("beat_times_s", "gaps", "rr_ms")
+
+    def __init__(self, rec: Recording, start_s: float, end_s: float) -> None:
+        t = rec.beat_times_s
+        lo = int(np.searchsorted(t, start_s - 1e-9, side="left"))   # as Recording.slice
+        hi = int(np.searchsorted(t, end_s + 1e-9, side="right"))
+        if hi - lo < 2:
+            lo = hi = 0
+        self.beat_times_s = t[lo:hi]
+        self.rr_ms = rec.rr_ms[lo:max(hi - 1, lo)]
+        self.gaps = rec.gaps[lo:max(hi - 1, lo)]
+
+    @property
+    def n_beats(self) -> int:
+        return int(self.beat_times_s.size)
+
+    @property
+    def n_intervals(self) -> int:
+        return int(self.rr_ms.size)
+
+    @property
+    def duration_s(self) -> float:
+        t = self.beat_times_s
+        return 0.0 if t.size < 2 else float(t[-1] - t[0])
+
+    @property
+    def interval_times_s(self) -> np.ndarray:
+        return self.beat_times_s[1:]
+
+
 def metrics_many(parts: Sequence[Recording], s: MetricsSettings, *,
                  breathing_hz: Sequence[float | None] | None = None,
                  clean_settings: Sequence[Any] | None = None) -> list[MetricsResult]:
@@ -53,8 +88,8 @@ def metrics_many(parts: Sequence[Recording], s: MetricsSettings, *,
 
     Parameters
     ----------
-    parts : sequence of Recording
-        One recording per window.
+    parts : sequence of Recording or WindowView
+        One recording (or view) per window.
     s : MetricsSettings
     breathing_hz : sequence of float or None, optional
         Stated breathing rate per window (Hz).
@@ -76,7 +111,7 @@ def metrics_many(parts: Sequence[Recording], s: MetricsSettings, *,
         if "time" in s.domains:
             for i, v in zip(fast, _tinn_many(nns), strict=True):
                 pre[i]["tinn_ms"] = v
-        if "nonlinear" in s.domains:
+        if "nonlinear" in s.domains or "time" in s.domains:
             _nonlinear_many(fast, nns, s, pre)
         if "frequency" in s.domains and s.psd == "welch":
             _welch_many(fast, parts, s, pre)
@@ -145,6 +180,8 @@ def _nonlinear_many(fast: list[int], nns: list[np.ndarray], s: MetricsSettings,
     if k is not None:
         _nonlinear_compiled(k, fast, nns, s, pre)
         return
+    if "nonlinear" not in s.domains:
+        return
     ranges = (s.dfa_alpha1_beats, s.dfa_alpha2_beats)
     for k in range(0, len(fast), _CHUNK):
         alphas = _dfa_chunk(nns[k:k + _CHUNK], ranges, s.dfa_min_boxes)
@@ -183,8 +220,16 @@ def _nonlinear_compiled(k, fast: list[int], nns: list[np.ndarray], s: MetricsSet
     with warnings.catch_warnings():
         # numba warns when it cannot write its on-disk cache (read-only install): harmless
         warnings.simplefilter("ignore", category=Warning)
+        sums = k.sums_many(x, offsets, sizes, HIST_BIN_MS)
         fl, nbox = k.dfa_fluctuations_many(x, offsets, sizes, scales)
         a_cnt, b_cnt = k.sampen_counts_many(x, offsets, sizes, int(s.sampen_m), r)
+    for j, i in enumerate(fast):
+        row = dict(zip(k.SUM_KEYS, sums[j].tolist(), strict=True))
+        nd = row["n_diff"]
+        pre[i]["sums"] = row
+        if nd >= 2:  # Poincaré SD1, SD2 (ddof=1) from the centred sums, as `poincare`
+            pre[i]["sd12"] = (math.sqrt(row["ssc_diff"] / (2.0 * (nd - 1))),
+                              math.sqrt(row["ssc_sum"] / (2.0 * (nd - 1))))
     logn = np.log(scales.astype(float))
     cols = []
     for a, b in ranges:
@@ -304,6 +349,26 @@ def _sampen_chunk(nns: list[np.ndarray], s: MetricsSettings) -> list[tuple[float
 
 
 # ----------------------------------------------------------------------------- Welch
+def _resampled(parts: list, fs: float) -> list[np.ndarray]:
+    """`rrkit.metrics.spectral.resample` of each window (compiled loop for many windows)."""
+    k = _kernels() if len(parts) >= COMPILED_MIN_WINDOWS else None
+    if k is None:
+        return [resample(p.interval_times_s, p.rr_ms, fs) for p in parts]
+    import warnings
+
+    ts = [p.interval_times_s for p in parts]
+    sizes = np.array([v.size for v in ts], dtype=np.int64)
+    offsets = np.concatenate(([0], np.cumsum(sizes)[:-1])).astype(np.int64)
+    out_sizes = np.array([math.floor((v[-1] - v[0]) * fs + 1e-9) + 1 for v in ts], dtype=np.int64)
+    out_offsets = np.concatenate(([0], np.cumsum(out_sizes)[:-1])).astype(np.int64)
+    out = np.empty(int(out_sizes.sum()))
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore", category=Warning)
+        k.resample_many(np.concatenate(ts), np.concatenate([p.rr_ms for p in parts]), offsets,
+                        sizes, float(fs), out, out_offsets, out_sizes)
+    return np.split(out, out_offsets[1:])
+
+
 def _welch_many(fast: list[int], parts: Sequence[Recording], s: MetricsSettings,
                 pre: list[dict[str, Any]]) -> None:
     """Welch spectra of single-run windows: one banded solve per series length for the
@@ -312,18 +377,18 @@ def _welch_many(fast: list[int], parts: Sequence[Recording], s: MetricsSettings,
     nfft = max(round(s.welch_segment_s * fs), 8)
     series: dict[int, list[tuple[int, np.ndarray]]] = {}
     longest: dict[int, float] = {}
+    use = []
     for i in fast:
         p = parts[i]
         t = p.interval_times_s
-        rr = p.rr_ms
-        length = float(t[-1] - t[0]) + float(rr[0]) / 1000.0
-        if length < s.min_hf_s:
-            continue  # too short: the per-window path writes the note
-        x = resample(t, rr, fs)
-        series.setdefault(x.size, []).append((i, x))
-        longest[i] = length
-    if not series:
+        length = float(t[-1] - t[0]) + float(p.rr_ms[0]) / 1000.0
+        if length >= s.min_hf_s:  # shorter: the per-window path writes the note
+            use.append(i)
+            longest[i] = length
+    if not use:
         return
+    for i, x in zip(use, _resampled([parts[i] for i in use], fs), strict=True):
+        series.setdefault(x.size, []).append((i, x))
     detrended: dict[int, np.ndarray] = {}
     for n, items in series.items():
         block = np.stack([x for _, x in items], axis=1)  # (n, k): one right-hand side a window

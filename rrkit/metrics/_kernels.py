@@ -1,6 +1,10 @@
 """Compiled loops (numba) for the batched path of `rrkit.analyze`: SampEn counts and DFA
 fluctuations of many windows in one call.
 
+`resample_many` is `rrkit.metrics.spectral.resample` (the not-a-knot cubic spline of
+`rrkit.metrics._spline`) for many series, with the tridiagonal system solved by the Thomas
+algorithm instead of LAPACK's pivoting solver (the same values up to float rounding).
+
 Imported only by `rrkit.metrics._batch`, and only for batches of many windows, so a single
 ``rrkit.metrics`` call never pays numba's import and compile time. The loops compute exactly
 the quantities of the numpy implementations in `rrkit.metrics.nonlinear` (the test suite checks
@@ -13,7 +17,75 @@ from __future__ import annotations
 import numba
 import numpy as np
 
-__all__ = ["dfa_fluctuations_many", "sampen_counts_many"]
+__all__ = ["SUM_KEYS", "dfa_fluctuations_many", "resample_many", "sampen_counts_many",
+           "sums_many"]
+
+
+#: Columns of `sums_many`: the sums of `rrkit.metrics.time._sums`, then the centred sum of
+#: squares of the Poincaré sums RR[n+1] + RR[n] (for SD2).
+SUM_KEYS = ("mean", "median", "min", "max", "ss_dev", "n_diff", "ss_diff", "ssc_diff", "nn50",
+            "nn20", "hist_max", "ssc_sum")
+
+
+@numba.njit(cache=True, nogil=True)
+def sums_many(x, offsets, sizes, bin_ms):  # pragma: no cover - compiled
+    """Per window (n >= 2): the columns of `SUM_KEYS`."""
+    nw = sizes.size
+    out = np.full((nw, 12), np.nan)
+    for w in range(nw):
+        o = offsets[w]
+        n = sizes[w]
+        v = x[o:o + n]
+        tot = 0.0
+        lo = v[0]
+        hi = v[0]
+        for i in range(n):
+            tot += v[i]
+            lo = min(lo, v[i])
+            hi = max(hi, v[i])
+        mean = tot / n
+        ss = 0.0
+        for i in range(n):
+            ss += (v[i] - mean) ** 2
+        nd = n - 1
+        sd = 0.0
+        ssum = 0.0
+        for i in range(nd):
+            sd += v[i + 1] - v[i]
+            ssum += v[i + 1] + v[i]
+        md = sd / nd
+        ms = ssum / nd
+        ssd = 0.0
+        sscd = 0.0
+        sscs = 0.0
+        c50 = 0
+        c20 = 0
+        for i in range(nd):
+            d = v[i + 1] - v[i]
+            ssd += d * d
+            sscd += (d - md) ** 2
+            sscs += (v[i + 1] + v[i] - ms) ** 2
+            if abs(d) > 50.0:
+                c50 += 1
+            if abs(d) > 20.0:
+                c20 += 1
+        b0 = np.int64(lo // bin_ms)
+        counts = np.zeros(np.int64(hi // bin_ms) - b0 + 1, np.int64)
+        for i in range(n):
+            counts[np.int64(v[i] // bin_ms) - b0] += 1
+        out[w, 0] = mean
+        out[w, 1] = np.median(v)
+        out[w, 2] = lo
+        out[w, 3] = hi
+        out[w, 4] = ss
+        out[w, 5] = nd
+        out[w, 6] = ssd
+        out[w, 7] = sscd
+        out[w, 8] = c50
+        out[w, 9] = c20
+        out[w, 10] = counts.max()
+        out[w, 11] = sscs
+    return out
 
 
 @numba.njit(cache=True, nogil=True)
@@ -93,18 +165,73 @@ def dfa_fluctuations_many(x, offsets, sizes, scales):  # pragma: no cover - comp
             total = 0.0
             for j in range(nb):
                 base = j * s
+                ref = prof[base]  # sums of y - ref: small numbers, one pass
                 sy = 0.0
-                for k in range(s):
-                    sy += prof[base + k]
-                ym = sy / s
                 syy = 0.0
                 sty = 0.0
                 for k in range(s):
-                    d = prof[base + k] - ym
+                    d = prof[base + k] - ref
+                    sy += d
                     syy += d * d
                     sty += (k - c) * d
-                ss = syy - sty * sty / stt
+                ss = syy - sy * sy / s - sty * sty / stt
                 if ss > 0.0:
                     total += ss / s
             fl[w, si] = np.sqrt(total / nb)
     return fl, nbox
+
+
+@numba.njit(cache=True, nogil=True)
+def resample_many(t, y, offsets, sizes, fs, out, out_offsets, out_sizes):  # pragma: no cover
+    """Not-a-knot cubic spline of each series ``(t, y)[o:o+n]`` (n >= 4) evaluated at
+    ``t0 + k / fs`` for ``k < out_sizes[w]``, written to ``out[out_offsets[w]:]``."""
+    nw = sizes.size
+    for w in range(nw):
+        o = offsets[w]
+        n = sizes[w]
+        x = t[o:o + n]
+        v = y[o:o + n]
+        dx = np.empty(n - 1)
+        sl = np.empty(n - 1)
+        for i in range(n - 1):
+            dx[i] = x[i + 1] - x[i]
+            sl[i] = (v[i + 1] - v[i]) / dx[i]
+        diag = np.empty(n)
+        lower = np.empty(n - 1)
+        upper = np.empty(n - 1)
+        b = np.empty(n)
+        for i in range(1, n - 1):
+            diag[i] = 2.0 * (dx[i - 1] + dx[i])
+            upper[i] = dx[i - 1]
+            lower[i - 1] = dx[i]
+            b[i] = 3.0 * (dx[i] * sl[i - 1] + dx[i - 1] * sl[i])
+        d0 = x[2] - x[0]
+        diag[0] = dx[1]
+        upper[0] = d0
+        b[0] = ((dx[0] + 2.0 * d0) * dx[1] * sl[0] + dx[0] ** 2 * sl[1]) / d0
+        d1 = x[n - 1] - x[n - 3]
+        diag[n - 1] = dx[n - 3]
+        lower[n - 2] = d1
+        b[n - 1] = (dx[n - 2] ** 2 * sl[n - 3]
+                    + (2.0 * d1 + dx[n - 2]) * dx[n - 3] * sl[n - 2]) / d1
+        for i in range(1, n):  # Thomas algorithm
+            f = lower[i - 1] / diag[i - 1]
+            diag[i] -= f * upper[i - 1]
+            b[i] -= f * b[i - 1]
+        s = np.empty(n)
+        s[n - 1] = b[n - 1] / diag[n - 1]
+        for i in range(n - 2, -1, -1):
+            s[i] = (b[i] - upper[i] * s[i + 1]) / diag[i]
+        oo = out_offsets[w]
+        i = 0
+        x0 = x[0]
+        for k in range(out_sizes[w]):
+            g = x0 + k / fs
+            while i < n - 2 and x[i + 1] <= g:
+                i += 1
+            h = dx[i]
+            tt = g - x[i]
+            m = sl[i]
+            c2 = (3.0 * m - 2.0 * s[i] - s[i + 1]) / h
+            c3 = (s[i] + s[i + 1] - 2.0 * m) / (h * h)
+            out[oo + k] = v[i] + tt * (s[i] + tt * (c2 + tt * c3))

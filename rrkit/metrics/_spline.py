@@ -12,7 +12,7 @@ import numpy as np
 from scipy.interpolate import CubicSpline
 from scipy.linalg.lapack import dgtsv
 
-__all__ = ["spline_on_grid", "splines_on_grids"]
+__all__ = ["spline_on_grid"]
 
 
 def spline_on_grid(x: np.ndarray, y: np.ndarray, grid: np.ndarray) -> np.ndarray:
@@ -53,61 +53,3 @@ def spline_on_grid(x: np.ndarray, y: np.ndarray, grid: np.ndarray) -> np.ndarray
     c3 = (s0 + s1 - 2.0 * m) / (h * h)
     return y[i] + t * (s0 + t * (c2 + t * c3))
 
-
-def splines_on_grids(xs: list[np.ndarray], ys: list[np.ndarray], grids: list[np.ndarray]
-                     ) -> list[np.ndarray]:
-    """`spline_on_grid` of many series at once: one block-diagonal tridiagonal solve for every
-    series' knot slopes and one vectorised evaluation. Every series needs at least 4 knots."""
-    sizes = np.array([x.size for x in xs])
-    if sizes.min() < 4:
-        return [spline_on_grid(x, y, g) for x, y, g in zip(xs, ys, grids, strict=True)]
-    x = np.concatenate(xs)
-    y = np.concatenate(ys)
-    n = x.size
-    first = np.concatenate(([0], np.cumsum(sizes)[:-1]))   # first knot of each series
-    last = first + sizes - 1
-    dx = np.diff(x)
-    slope = np.diff(y) / dx          # entries at last[k] (between two series) are never used
-    diag = np.empty(n)
-    lower = np.zeros(n - 1)
-    upper = np.zeros(n - 1)
-    b = np.empty(n)
-    inner = np.ones(n, bool)
-    inner[first] = False
-    inner[last] = False
-    ii = np.flatnonzero(inner)
-    diag[ii] = 2.0 * (dx[ii - 1] + dx[ii])
-    upper[ii] = dx[ii - 1]
-    lower[ii - 1] = dx[ii]
-    b[ii] = 3.0 * (dx[ii] * slope[ii - 1] + dx[ii - 1] * slope[ii])
-    f = first
-    d0 = x[f + 2] - x[f]
-    diag[f] = dx[f + 1]
-    upper[f] = d0
-    b[f] = ((dx[f] + 2.0 * d0) * dx[f + 1] * slope[f] + dx[f] ** 2 * slope[f + 1]) / d0
-    e = last
-    d1 = x[e] - x[e - 2]
-    diag[e] = dx[e - 2]
-    lower[e - 1] = d1
-    b[e] = (dx[e - 1] ** 2 * slope[e - 2] + (2.0 * d1 + dx[e - 1]) * dx[e - 2] * slope[e - 1]) / d1
-    # blocks do not couple: the entries between the last knot of one series and the first of
-    # the next are zero
-    upper[e[:-1]] = 0.0
-    lower[e[:-1]] = 0.0
-    _, _, _, s, info = dgtsv(lower, diag, upper, b, overwrite_dl=1, overwrite_d=1,
-                             overwrite_du=1, overwrite_b=1)
-    if info != 0:
-        return [spline_on_grid(x, y, g) for x, y, g in zip(xs, ys, grids, strict=True)]
-    out = []
-    for k, g in enumerate(grids):
-        lo, hi = int(first[k]), int(last[k])
-        i = np.clip(np.searchsorted(x[lo:hi + 1], g, side="right") - 1, 0, hi - lo - 1) + lo
-        h = dx[i]
-        t = g - x[i]
-        m = slope[i]
-        s0 = s[i]
-        s1 = s[i + 1]
-        c2 = (3.0 * m - 2.0 * s0 - s1) / h
-        c3 = (s0 + s1 - 2.0 * m) / (h * h)
-        out.append(y[i] + t * (s0 + t * (c2 + t * c3)))
-    return out

@@ -283,6 +283,7 @@ def sample_entropy(segments: list[np.ndarray], *, m: int = 2, r: float,
 def nonlinear_domain(segments: list[np.ndarray], s: MetricsSettings, *,
                      dfa: tuple[float, float] | None = None,
                      sampen: tuple[float, int, int] | None = None,
+                     sd12: tuple[float, float] | None = None,
                      ) -> tuple[dict[str, float], list[str]]:
     """Poincaré SD1/SD2, DFA alpha1/alpha2 and SampEn of NN runs, with notes for every NaN.
 
@@ -290,14 +291,14 @@ def nonlinear_domain(segments: list[np.ndarray], s: MetricsSettings, *,
     -----
     ``sampen`` uses ``m = s.sampen_m`` and ``r = s.sampen_r * SD(NN, ddof=1)``. DFA alpha1 uses
     box sizes ``s.dfa_alpha1_beats`` (4-16), alpha2 ``s.dfa_alpha2_beats`` (16-64), non-overlapping
-    boxes (see `dfa_fluctuations`). ``dfa`` and ``sampen`` pass values already computed for
-    these intervals (the batched path of `rrkit.analyze`).
+    boxes (see `dfa_fluctuations`). ``dfa``, ``sampen`` and ``sd12`` pass values already
+    computed for these intervals (the batched path of `rrkit.analyze`).
     """
     out = dict.fromkeys(NONLINEAR_KEYS, _NAN)
     notes: list[str] = []
     segs = [x for x in segments if x.size]
     n = sum(x.size for x in segs)
-    sd1, sd2 = poincare(segs)
+    sd1, sd2 = poincare(segs) if sd12 is None else sd12
     out["sd1_ms"], out["sd2_ms"] = sd1, sd2
     if not np.isfinite(sd1):
         notes.append("sd1_ms, sd2_ms, sd1_sd2: NaN, fewer than 2 successive NN pairs")

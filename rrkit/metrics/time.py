@@ -93,8 +93,27 @@ def _median(x: np.ndarray) -> float:
     return 0.5 * (float(part[k - 1]) + float(part[k]))
 
 
+def _sums(nn: np.ndarray, d: np.ndarray) -> dict[str, float]:
+    """The sums the time-domain metrics are made of (see `time_domain`)."""
+    n = nn.size
+    mean = float(nn.sum()) / n
+    dev = nn - mean
+    out = {"mean": mean, "median": _median(nn), "min": float(nn.min()), "max": float(nn.max()),
+           "ss_dev": float(dev @ dev), "n_diff": float(d.size), "ss_diff": float(d @ d),
+           "ssc_diff": _NAN, "nn50": 0.0, "nn20": 0.0,
+           "hist_max": float(np.bincount((nn // HIST_BIN_MS).astype(np.int64)).max())}
+    if d.size:
+        ad = np.abs(d)
+        out["nn50"] = float(np.count_nonzero(ad > 50.0))
+        out["nn20"] = float(np.count_nonzero(ad > 20.0))
+        dc = d - float(d.sum()) / d.size
+        out["ssc_diff"] = float(dc @ dc)
+    return out
+
+
 def time_domain(segments: list[np.ndarray], *, n_beats: int, duration_s: float,
-                tinn_ms: float | None = None) -> tuple[dict[str, float], list[str]]:
+                tinn_ms: float | None = None, sums: dict[str, float] | None = None,
+                ) -> tuple[dict[str, float], list[str]]:
     """Time-domain metrics of NN-interval runs.
 
     Parameters
@@ -107,6 +126,8 @@ def time_domain(segments: list[np.ndarray], *, n_beats: int, duration_s: float,
         Time from the first to the last beat, in s (gaps included).
     tinn_ms : float, optional
         TINN already computed for these intervals (the batched path of `rrkit.analyze`).
+    sums : dict, optional
+        The sums of `_sums` already computed (the batched path of `rrkit.analyze`).
 
     Returns
     -------
@@ -146,40 +167,37 @@ def time_domain(segments: list[np.ndarray], *, n_beats: int, duration_s: float,
     if n == 0:
         notes.append("time domain: no NN intervals in the window, every time-domain metric is NaN")
         return out, notes
-    mean = float(nn.sum()) / n
-    lo, hi = float(nn.min()), float(nn.max())
+    if sums is None:
+        d = successive_differences(nonempty)
+        sums = _sums(nn, d)
+    nd = int(sums["n_diff"])
+    mean = sums["mean"]
     out["mean_rr_ms"] = mean
-    out["median_rr_ms"] = _median(nn)
+    out["median_rr_ms"] = sums["median"]
     out["mean_hr_bpm"] = 60000.0 / mean
-    out["min_hr_bpm"] = 60000.0 / hi
-    out["max_hr_bpm"] = 60000.0 / lo
+    out["min_hr_bpm"] = 60000.0 / sums["max"]
+    out["max_hr_bpm"] = 60000.0 / sums["min"]
     if n >= 2:
-        dev = nn - mean
-        sdnn = math.sqrt(float(dev @ dev) / (n - 1))
+        sdnn = math.sqrt(sums["ss_dev"] / (n - 1))
         out["sdnn_ms"] = sdnn
         out["cv_rr_pct"] = 100.0 * sdnn / mean
     else:
         notes.append("sdnn_ms, cv_rr_pct: NaN, fewer than 2 NN intervals")
-    d = successive_differences(nonempty)
-    nd = d.size
     if nd >= 1:
-        ss = float(d @ d)
-        rmssd = math.sqrt(ss / nd)
+        rmssd = math.sqrt(sums["ss_diff"] / nd)
         out["rmssd_ms"] = rmssd
         out["ln_rmssd"] = math.log(rmssd) if rmssd > 0 else _NAN
         if rmssd == 0:
             notes.append("ln_rmssd: NaN, RMSSD is 0 ms")
-        ad = np.abs(d)
-        out["pnn50_pct"] = 100.0 * float(np.count_nonzero(ad > 50.0)) / n
-        out["pnn20_pct"] = 100.0 * float(np.count_nonzero(ad > 20.0)) / n
+        out["pnn50_pct"] = 100.0 * sums["nn50"] / n
+        out["pnn20_pct"] = 100.0 * sums["nn20"] / n
     else:
         notes.append("rmssd_ms, ln_rmssd, pnn50_pct, pnn20_pct: NaN, no two adjacent NN intervals")
     if nd >= 2:
-        dc = d - float(d.sum()) / nd
-        out["sdsd_ms"] = math.sqrt(float(dc @ dc) / (nd - 1))
+        out["sdsd_ms"] = math.sqrt(sums["ssc_diff"] / (nd - 1))
     else:
         notes.append("sdsd_ms: NaN, fewer than 2 successive differences")
-    out["hrv_triangular_index"] = triangular_index(nn)
+    out["hrv_triangular_index"] = n / sums["hist_max"]
     out["tinn_ms"] = tinn(nn) if tinn_ms is None else float(tinn_ms)
     if not np.isfinite(out["tinn_ms"]):
         notes.append("tinn_ms: NaN, the NN histogram has fewer than 3 bins")
