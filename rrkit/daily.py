@@ -32,6 +32,7 @@ import dataclasses
 import datetime as dt
 import json
 import logging
+import os
 from collections.abc import Iterable, Mapping
 from dataclasses import dataclass, field
 from typing import Any
@@ -404,6 +405,11 @@ def daily_table(
     import pandas as pd
 
     s = settings or DailySettings()
+    if isinstance(recordings, (str, os.PathLike)):
+        raise InputError(f"daily_table takes recordings or a per-recording table; got the path "
+                         f"{str(recordings)!r}",
+                         hint="for a folder of files use rrkit.run_daily(folder, outdir) or "
+                              "`rrkit daily FOLDER -o OUTDIR`")
     if isinstance(recordings, pd.DataFrame):
         per_rec = recordings.copy()
     else:

@@ -283,6 +283,11 @@ def test_measure_recording_rejects_short_recording():
     assert "covers" in rows[0]["quality_reason"]
 
 
+def test_daily_table_points_folders_to_run_daily(tmp_path):
+    with pytest.raises(rrkit.InputError, match=r"use rrkit\.run_daily"):
+        daily_table(tmp_path)
+
+
 def test_daily_table_needs_subject_and_start():
     with pytest.raises(rrkit.InputError, match="needs subject and start"):
         daily_table([simulate_rr(duration_s=400, seed=1)])
