@@ -391,20 +391,21 @@ def _welch_many(fast: list[int], parts: Sequence[Recording], s: MetricsSettings,
         series.setdefault(x.size, []).append((i, x))
     detrended: dict[int, np.ndarray] = {}
     for n, items in series.items():
-        block = np.stack([x for _, x in items], axis=1)  # (n, k): one right-hand side a window
-        if s.detrend == "smoothness_priors" and n >= 3:
-            trend, info = dpbtrs(_smoothness_factor(n, float(s.smoothness_lambda)), block, lower=0)
+        rows = np.stack([x for _, x in items])  # (k, n): one series a row; its transpose is the
+        if s.detrend == "smoothness_priors" and n >= 3:  # Fortran-ordered (n, k) LAPACK wants
+            trend, info = dpbtrs(_smoothness_factor(n, float(s.smoothness_lambda)), rows.T,
+                                 lower=0)
             if info != 0:  # pragma: no cover
                 raise RuntimeError(f"banded Cholesky solve failed (LAPACK info {info})")
-            block = block - trend
+            rows = rows - trend.T
         elif s.detrend == "smoothness_priors":
-            block = block - block.mean(axis=0)
+            rows = rows - rows.mean(axis=1, keepdims=True)
         else:
             from scipy.signal import detrend
 
-            block = detrend(block, axis=0, type="linear")
-        for col, (i, _) in enumerate(items):
-            detrended[i] = block[:, col]
+            rows = detrend(rows, axis=1, type="linear")
+        for r, (i, _) in enumerate(items):
+            detrended[i] = rows[r]
     groups: dict[int, list[int]] = {}
     for i, x in detrended.items():
         groups.setdefault(min(nfft, x.size), []).append(i)
@@ -421,8 +422,9 @@ def _welch_many(fast: list[int], parts: Sequence[Recording], s: MetricsSettings,
             segs.append(np.lib.stride_tricks.sliding_window_view(x, nper)[st])
             counts.append(st.size)
         allseg = np.concatenate(segs)
-        allseg = allseg - allseg.mean(axis=1, keepdims=True)
-        spec = np.fft.rfft(allseg * win, n=nfft, axis=1)
+        allseg -= allseg.mean(axis=1, keepdims=True)
+        allseg *= win
+        spec = np.fft.rfft(allseg, n=nfft, axis=1)
         power = spec.real ** 2 + spec.imag ** 2
         bounds = np.concatenate(([0], np.cumsum(counts)[:-1]))
         psd = np.add.reduceat(power, bounds, axis=0) / np.asarray(counts, float)[:, None]

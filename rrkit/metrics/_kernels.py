@@ -107,25 +107,28 @@ def sampen_counts_many(x, offsets, sizes, m, r):  # pragma: no cover - compiled
         if nt < 2:
             continue
         rw = r[w]
-        first = x[o:o + nt]
-        order = np.argsort(first, kind="mergesort")
+        order = np.argsort(x[o:o + nt], kind="mergesort")
+        # the template points in sorted order, contiguous: cols[k, ii] = x[start of ii + k]
+        cols = np.empty((m + 1, nt))
+        for ii in range(nt):
+            i = o + order[ii]
+            for k in range(m + 1):
+                cols[k, ii] = x[i + k]
         a = 0
         b = 0
         for ii in range(nt):
-            i = o + order[ii]
-            xi = x[i]
+            x0 = cols[0, ii]
             for jj in range(ii + 1, nt):
-                j = o + order[jj]
-                if x[j] - xi > rw:
+                if cols[0, jj] - x0 > rw:
                     break
                 ok = True
                 for k in range(1, m):
-                    if abs(x[i + k] - x[j + k]) > rw:
+                    if abs(cols[k, jj] - cols[k, ii]) > rw:
                         ok = False
                         break
                 if ok:
                     b += 1
-                    if abs(x[i + m] - x[j + m]) <= rw:
+                    if abs(cols[m, jj] - cols[m, ii]) <= rw:
                         a += 1
         a_out[w] = a
         b_out[w] = b

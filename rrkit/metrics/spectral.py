@@ -274,7 +274,24 @@ def estimate_psd(runs: list[tuple[np.ndarray, np.ndarray]], s: MetricsSettings, 
 
 def _band(f: np.ndarray, band: tuple[float, float]) -> slice:
     """Indices of the increasing grid ``f`` with ``lo <= f < hi``."""
+    if f.size > 1:  # uniform grids: cached by (size, first, step)
+        return _uniform_band(f.size, float(f[0]), float(f[1] - f[0]), float(band[0]),
+                             float(band[1]), f)
     return slice(int(f.searchsorted(band[0], "left")), int(f.searchsorted(band[1], "left")))
+
+
+_BAND_CACHE: dict[tuple[int, float, float, float, float], slice] = {}
+
+
+def _uniform_band(n: int, f0: float, step: float, lo: float, hi: float, f: np.ndarray) -> slice:
+    key = (n, f0, step, lo, hi)
+    sl = _BAND_CACHE.get(key)
+    if sl is None:
+        sl = slice(int(f.searchsorted(lo, "left")), int(f.searchsorted(hi, "left")))
+        if len(_BAND_CACHE) > 4096:
+            _BAND_CACHE.clear()
+        _BAND_CACHE[key] = sl
+    return sl
 
 
 def band_power(est: PsdEstimate, band: tuple[float, float]) -> float:
