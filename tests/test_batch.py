@@ -461,3 +461,21 @@ def test_localize_agrees_with_pandas(rng):
                 continue
             got = rrkit.daily.localize(naive, zone)
             assert got.utcoffset() == ref.utcoffset(), (zone, naive)
+
+
+from hypothesis import given, settings  # noqa: E402
+from hypothesis import strategies as st  # noqa: E402
+
+
+@settings(max_examples=150, deadline=None)
+@given(subject=st.from_regex(r"[A-Za-z][A-Za-z0-9-]{0,5}(_[A-Za-z0-9][A-Za-z0-9-]{0,5})?",
+                             fullmatch=True),
+       day=st.dates(min_value=dt.date(1900, 1, 1), max_value=dt.date(2099, 12, 31)),
+       clock=st.times().map(lambda t: t.replace(microsecond=0)),
+       compact=st.booleans())
+def test_pattern_recovers_what_a_name_was_made_of(subject, day, clock, compact):
+    # a name built from known parts parses back to them (invariant of the default pattern)
+    name = (f"{subject}_{day:%Y%m%d}_{clock:%H%M%S}.txt" if compact
+            else f"{subject}_{day:%Y-%m-%d}_{clock:%H-%M-%S}.txt")
+    got = FilenamePattern("{subject}_{date}[_{time}]*").match(f"any/where/{name}")
+    assert got == {"subject": subject, "date": day, "time": clock}

@@ -16,9 +16,9 @@ alone (so ``{subject}_{date}*`` finds files at any depth).
     (2-digit year), ``%m``, ``%d``, ``%H``, ``%M``, ``%S`` (2 digits each) and literal
     characters, e.g. ``{date:%d.%m.%Y}`` or ``{time:%Hh%M}``.
 Default formats
-    ``{date}``: ``2026-03-01`` or ``20260301``. ``{time}``: ``0712``, ``071230``, ``07-12``,
-    ``07-12-30``, ``07.12``, ``07h12``. ``{datetime}``: a date and a time joined by ``T``,
-    ``_``, ``-`` or a space (``20260301T071230``, ``2026-03-01_07-12``).
+    ``{date}``: ``2026-03-01`` or ``20260301`` (years 1900-2099). ``{time}``: ``0712``,
+    ``071230``, ``07-12``, ``07-12-30``, ``07.12``, ``07h12``. ``{datetime}``: a date and a
+    time joined by ``T``, ``_``, ``-`` or a space (``20260301T071230``, ``2026-03-01_07-12``).
 ``*``
     Any run of characters except ``/`` (possibly empty). ``**`` any run including ``/``
     (``**/`` at the start: at any depth). ``?`` exactly one character except ``/``.
@@ -50,8 +50,11 @@ DEFAULT_PATTERN = "{subject}_{date}[_{time}]*"
 
 _CODES = {"%Y": r"\d{4}", "%y": r"\d{2}", "%m": r"\d{2}", "%d": r"\d{2}",
           "%H": r"\d{2}", "%M": r"\d{2}", "%S": r"\d{2}", "%%": "%"}
-_DATE_RE = r"\d{4}-\d{2}-\d{2}|\d{8}"
-_TIME_RE = r"\d{2}(?:[-.h:]?\d{2}){1,2}"
+# plausible calendar values only (years 1900-2099, months 01-12, days 01-31, hours 00-23,
+# minutes and seconds 00-59), so that a subject id with digits in it splits at the right place
+_Y, _MO, _D = r"(?:19|20)\d{2}", r"(?:0[1-9]|1[0-2])", r"(?:0[1-9]|[12]\d|3[01])"
+_DATE_RE = rf"{_Y}-{_MO}-{_D}|{_Y}{_MO}{_D}"
+_TIME_RE = r"(?:[01]\d|2[0-3])(?:[-.h:]?[0-5]\d){1,2}"
 _DT_RE = rf"(?:{_DATE_RE})[T_ -](?:{_TIME_RE})"
 _SPECIAL = ("date", "time", "datetime")
 _NAME_RE = re.compile(r"[A-Za-z_][A-Za-z0-9_]*\Z")
