@@ -16,6 +16,7 @@ from __future__ import annotations
 import contextlib
 import hashlib
 import json
+import logging
 import os
 import warnings
 from pathlib import Path
@@ -122,8 +123,10 @@ def process_and_cache(task: tuple[str, str, str], *, settings: DailySettings, ca
     file is simply recomputed next time).
     """
     result = process_file(task, settings=settings)
-    with contextlib.suppress(OSError):
+    try:
         write_entry(Path(cache_folder), digest, result)
+    except Exception as exc:  # a cache that cannot be written only costs a recomputation
+        logging.getLogger("rrkit").warning("resume cache not written for %s: %s", task[1], exc)
     return result
 
 
