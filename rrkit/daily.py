@@ -51,6 +51,7 @@ __all__ = [
     "DailySettings",
     "add_baselines",
     "daily_table",
+    "localize",
     "measure_recording",
     "select_days",
     "weekly_summary",
