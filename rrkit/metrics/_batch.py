@@ -27,6 +27,7 @@ from ._settings import MetricsSettings
 from .nonlinear import SORTED_SAMPEN_MAX, _boxes
 from .spectral import (
     PsdEstimate,
+    _band,
     _hann,
     _onesided,
     _smoothness_factor,
@@ -121,6 +122,15 @@ def metrics_many(parts: Sequence[Recording], s: MetricsSettings, *,
 
 # ----------------------------------------------------------------------------- TINN
 def _tinn_many(nns: list[np.ndarray]) -> list[float]:
+    k = _kernels() if len(nns) >= COMPILED_MIN_WINDOWS else None
+    if k is not None:
+        import warnings
+
+        sizes = np.array([x.size for x in nns], dtype=np.int64)
+        offsets = np.concatenate(([0], np.cumsum(sizes)[:-1])).astype(np.int64)
+        with warnings.catch_warnings():
+            warnings.simplefilter("ignore", category=Warning)
+            return k.tinn_many(np.concatenate(nns), offsets, sizes, HIST_BIN_MS).tolist()
     out: list[float] = []
     for k in range(0, len(nns), _CHUNK):
         out += _tinn_chunk(nns[k:k + _CHUNK])
@@ -430,7 +440,42 @@ def _welch_many(fast: list[int], parts: Sequence[Recording], s: MetricsSettings,
         psd = np.add.reduceat(power, bounds, axis=0) / np.asarray(counts, float)[:, None]
         psd /= fs * float(np.dot(win, win))
         _onesided(psd, nfft)
+        known = _known_values(f, psd, df, s)
         for row, i in enumerate(members):
             p = psd[row]
             p.flags.writeable = False
-            pre[i]["estimate"] = PsdEstimate(f, p, float(df), "welch", longest[i], 1, 0)
+            pre[i]["estimate"] = PsdEstimate(f, p, float(df), "welch", longest[i], 1, 0,
+                                             known=known[row])
+
+
+def _known_values(f: np.ndarray, psd: np.ndarray, df: float, s: MetricsSettings
+                  ) -> list[dict]:
+    """Band powers, band peaks and the low-frequency peak of every row of ``psd`` at once
+    (the quantities `rrkit.metrics.spectral.frequency_domain` asks of each spectrum)."""
+    b = s.bands
+    cum = np.zeros((psd.shape[0], psd.shape[1] + 1))
+    np.cumsum(psd, axis=1, out=cum[:, 1:])
+    out: list[dict] = [{} for _ in range(psd.shape[0])]
+    total_band = (b.vlf[0], b.hf[1])
+    for band in (b.vlf, b.lf, b.hf, total_band):
+        sl = _band(f, band)
+        power = (cum[:, sl.stop] - cum[:, sl.start]) * df
+        for row, v in enumerate(power.tolist()):
+            out[row][("power", band)] = v
+    for band in (b.lf, b.hf):
+        sl = _band(f, band)
+        if sl.stop <= sl.start:
+            continue
+        peaks = f[sl.start + psd[:, sl].argmax(axis=1)]
+        for row, v in enumerate(peaks.tolist()):
+            out[row][("peak", band)] = v
+    low = _band(f, (b.vlf[0], b.hf[0]))
+    if low.stop > low.start:
+        hw = s.resp_peak_halfwidth_hz
+        fpk = f[low.start + psd[:, low].argmax(axis=1)]
+        a = np.searchsorted(f, fpk - hw, side="left")
+        z = np.searchsorted(f, fpk + hw, side="right")
+        near = (cum[np.arange(psd.shape[0]), z] - cum[np.arange(psd.shape[0]), a]) * df
+        for row, (fp, nv) in enumerate(zip(fpk.tolist(), near.tolist(), strict=True)):
+            out[row][("low_peak", low.start, low.stop, hw)] = (fp, nv)
+    return out

@@ -18,7 +18,7 @@ import numba
 import numpy as np
 
 __all__ = ["SUM_KEYS", "dfa_fluctuations_many", "resample_many", "sampen_counts_many",
-           "sums_many"]
+           "sums_many", "tinn_many"]
 
 
 #: Columns of `sums_many`: the sums of `rrkit.metrics.time._sums`, then the centred sum of
@@ -238,3 +238,60 @@ def resample_many(t, y, offsets, sizes, fs, out, out_offsets, out_sizes):  # pra
             c2 = (3.0 * m - 2.0 * s[i] - s[i + 1]) / h
             c3 = (s[i] + s[i + 1] - 2.0 * m) / (h * h)
             out[oo + k] = v[i] + tt * (s[i] + tt * (c2 + tt * c3))
+
+
+@numba.njit(cache=True, nogil=True)
+def tinn_many(x, offsets, sizes, bin_ms):  # pragma: no cover - compiled
+    """`rrkit.metrics.time.tinn` of each window (NaN with fewer than 3 histogram bins)."""
+    nw = sizes.size
+    out = np.full(nw, np.nan)
+    for w in range(nw):
+        o = offsets[w]
+        n = sizes[w]
+        if n < 3:
+            continue
+        v = x[o:o + n]
+        lo = np.int64(v[0] // bin_ms)
+        hi = lo
+        for i in range(n):
+            b = np.int64(v[i] // bin_ms)
+            lo = min(lo, b)
+            hi = max(hi, b)
+        nb = hi - lo + 1
+        if nb < 3:
+            continue
+        c = np.zeros(nb)
+        for i in range(n):
+            c[np.int64(v[i] // bin_ms) - lo] += 1.0
+        xm = 0
+        for j in range(nb):
+            if c[j] > c[xm]:
+                xm = j
+        y = c[xm]
+        xc = xm + 0.5
+        best_l = np.inf
+        foot = 0
+        for f in range(xm + 1):
+            err = 0.0
+            for j in range(xm + 1):
+                q = y * ((j + 0.5) - f) / (xc - f)
+                if q < 0.0:
+                    q = 0.0
+                err += (c[j] - q) ** 2
+            if err < best_l:
+                best_l = err
+                foot = f
+        best_r = np.inf
+        end = xm + 1
+        for e in range(xm + 1, nb + 1):
+            err = 0.0
+            for j in range(xm + 1, nb):
+                q = y * (e - (j + 0.5)) / (e - xc)
+                if q < 0.0:
+                    q = 0.0
+                err += (c[j] - q) ** 2
+            if err < best_r:
+                best_r = err
+                end = e
+        out[w] = (end - foot) * bin_ms
+    return out

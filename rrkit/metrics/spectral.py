@@ -47,6 +47,7 @@ from __future__ import annotations
 import math
 from dataclasses import dataclass
 from functools import lru_cache
+from typing import Any
 
 import numpy as np
 from scipy.linalg import cholesky_banded
@@ -86,6 +87,9 @@ class PsdEstimate:
     longest_run_s: float
     runs_used: int
     runs_skipped: int
+    #: values already computed from this spectrum (the batched path of `rrkit.analyze`):
+    #: ``("power", band)``, ``("peak", band)``, ``("low_peak", start, stop, halfwidth)``
+    known: Any = None
 
 
 def resample(times_s: np.ndarray, nn_ms: np.ndarray, fs_hz: float) -> np.ndarray:
@@ -296,10 +300,18 @@ def _uniform_band(n: int, f0: float, step: float, lo: float, hi: float, f: np.nd
 
 def band_power(est: PsdEstimate, band: tuple[float, float]) -> float:
     """Power in ``lo <= f < hi`` (ms^2), rectangle rule on the estimator's grid."""
+    if est.known is not None:
+        v = est.known.get(("power", band))
+        if v is not None:
+            return v
     return float(est.psd_ms2_hz[_band(est.freqs_hz, band)].sum() * est.df_hz)
 
 
 def _peak(est: PsdEstimate, band: tuple[float, float]) -> float:
+    if est.known is not None:
+        v = est.known.get(("peak", band))
+        if v is not None:
+            return v
     sel = _band(est.freqs_hz, band)
     if sel.stop <= sel.start:
         return _NAN
@@ -400,10 +412,16 @@ def _breathing(est: PsdEstimate, s: MetricsSettings, out: dict, notes: list[str]
     low = _band(f, (b.vlf[0], b.hf[0]))
     warned = False
     if low.stop > low.start and total > 0:
-        fpk = float(f[low.start + int(p[low].argmax())])
         hw = s.resp_peak_halfwidth_hz
-        near = slice(int(f.searchsorted(fpk - hw, "left")), int(f.searchsorted(fpk + hw, "right")))
-        share = float(p[near].sum() * est.df_hz) / total
+        known = None if est.known is None else est.known.get(("low_peak", low.start, low.stop, hw))
+        if known is None:
+            fpk = float(f[low.start + int(p[low].argmax())])
+            near = slice(int(f.searchsorted(fpk - hw, "left")),
+                         int(f.searchsorted(fpk + hw, "right")))
+            near_power = float(p[near].sum() * est.df_hz)
+        else:
+            fpk, near_power = known
+        share = near_power / total
         if share >= s.resp_peak_share:
             out["resp_hz"] = fpk
             notes.append(
