@@ -425,13 +425,13 @@ def _welch_many(fast: list[int], parts: Sequence[Recording], s: MetricsSettings,
     for nper, members in groups.items():
         nover = int(nper * s.welch_overlap)
         win = _hann(nper)
-        segs, counts = [], []
-        for i in members:
-            x = detrended[i]
-            st = segment_starts(x.size, nper, nover)
-            segs.append(np.lib.stride_tricks.sliding_window_view(x, nper)[st])
-            counts.append(st.size)
-        allseg = np.concatenate(segs)
+        series_all = [detrended[i] for i in members]
+        sizes = np.array([x.size for x in series_all])
+        first = np.concatenate(([0], np.cumsum(sizes)[:-1]))
+        starts = [segment_starts(int(n), nper, nover) for n in sizes]
+        counts = [st.size for st in starts]
+        seg0 = np.concatenate([f0 + st for f0, st in zip(first.tolist(), starts, strict=True)])
+        allseg = np.concatenate(series_all)[seg0[:, None] + np.arange(nper)[None, :]]
         allseg -= allseg.mean(axis=1, keepdims=True)
         allseg *= win
         spec = np.fft.rfft(allseg, n=nfft, axis=1)
