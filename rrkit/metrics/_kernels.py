@@ -8,8 +8,8 @@ algorithm instead of LAPACK's pivoting solver (the same values up to float round
 Imported only by `rrkit.metrics._batch`, and only for batches of many windows, so a single
 ``rrkit.metrics`` call never pays numba's import and compile time. The loops compute exactly
 the quantities of the numpy implementations in `rrkit.metrics.nonlinear` (the test suite checks
-both agree): SampEn's integer match counts are identical; DFA's sums are taken box by box
-instead of from cumulative sums, which differs only by float rounding.
+both agree): SampEn's integer match counts are identical; DFA's box sums come from the same
+prefix sums, accumulated in a different order (float rounding only).
 """
 
 from __future__ import annotations
@@ -107,7 +107,7 @@ def sampen_counts_many(x, offsets, sizes, m, r):  # pragma: no cover - compiled
         if nt < 2:
             continue
         rw = r[w]
-        order = np.argsort(x[o:o + nt], kind="mergesort")
+        order = np.argsort(x[o:o + nt])
         # the template points in sorted order, contiguous: cols[k, ii] = x[start of ii + k]
         cols = np.empty((m + 1, nt))
         for ii in range(nt):
@@ -152,31 +152,31 @@ def dfa_fluctuations_many(x, offsets, sizes, scales):  # pragma: no cover - comp
         for i in range(n):
             mean += x[o + i]
         mean /= n
-        prof = np.empty(n)
+        # profile and the prefix sums of y, k y and y**2 (k the index in the window)
+        c_y = np.zeros(n + 1)
+        c_ky = np.zeros(n + 1)
+        c_yy = np.zeros(n + 1)
         acc = 0.0
         for i in range(n):
             acc += x[o + i] - mean
-            prof[i] = acc
+            c_y[i + 1] = c_y[i] + acc
+            c_ky[i + 1] = c_ky[i] + i * acc
+            c_yy[i + 1] = c_yy[i] + acc * acc
         for si in range(ns):
             s = scales[si]
             nb = n // s
             nbox[w, si] = nb
             if nb == 0:
                 continue
-            c = (s - 1) / 2.0
             stt = s * (s * s - 1.0) / 12.0
             total = 0.0
             for j in range(nb):
-                base = j * s
-                ref = prof[base]  # sums of y - ref: small numbers, one pass
-                sy = 0.0
-                syy = 0.0
-                sty = 0.0
-                for k in range(s):
-                    d = prof[base + k] - ref
-                    sy += d
-                    syy += d * d
-                    sty += (k - c) * d
+                a = j * s
+                e = a + s
+                sy = c_y[e] - c_y[a]
+                sky = c_ky[e] - c_ky[a]
+                syy = c_yy[e] - c_yy[a]
+                sty = sky - (a + (s - 1) / 2.0) * sy
                 ss = syy - sy * sy / s - sty * sty / stt
                 if ss > 0.0:
                     total += ss / s
