@@ -208,14 +208,29 @@ class DailySettings:
             return windows.parse_window(self.window)
         return self.window
 
+    def effective_clean_settings(self):
+        """The `CleanSettings` every file is cleaned with (method and strategy applied)."""
+        from .clean import CleanSettings
+
+        base = self.clean_settings if self.clean_settings is not None else CleanSettings()
+        return dataclasses.replace(base, method=self.clean, strategy=self.strategy)
+
+    def effective_metrics_settings(self):
+        """The `MetricsSettings` every window is measured with."""
+        from .metrics import MetricsSettings
+
+        return MetricsSettings(psd=self.psd)
+
     def per_file_dict(self) -> dict[str, Any]:
         """The settings that change a single file's result (hashed for resume)."""
         return {
             "rrkit_version": __version__,
             "window": repr(self.window_spec()),
             "clean": self.clean, "strategy": self.strategy,
-            "clean_settings": _plain(self.clean_settings),
-            "psd": self.psd, "kind": self.kind, "unit": self.unit,
+            "clean_settings": _plain(self.effective_clean_settings()),
+            "psd": self.psd,
+            "metrics_settings": _plain(self.effective_metrics_settings()),
+            "kind": self.kind, "unit": self.unit,
             "reject_corrected_pct": float(self.reject_corrected_pct),
             "min_coverage": float(self.min_coverage),
         }
