@@ -46,6 +46,7 @@ from .recording import Recording
 
 __all__ = [
     "MORNING",
+    "SYNTAX_HELP",
     "BeforeEnd",
     "ClockTime",
     "Events",

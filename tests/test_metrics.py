@@ -312,3 +312,18 @@ def test_bad_arguments_raise_input_error():
         rrkit.metrics([800, 810])
     with pytest.raises(rrkit.InputError, match="sampen_r"):
         MetricsSettings(sampen_r=0)
+
+
+def test_drop_strategy_pairs_only_adjacent_normal_beats():
+    # clean(strategy="drop") keeps excluded intervals as gaps: RMSSD pools the differences of
+    # the runs between them, never one across a dropped interval
+    rec = simulate_rr(400, seed=6)
+    rr = rec.rr_ms.copy()
+    rr[120], rr[121] = rr[120] * 0.6, rr[121] * 1.4  # a premature beat and its pause
+    cr = rrkit.clean(rrkit.Recording.from_rr(rr), strategy="drop")
+    assert cr.recording.has_gaps
+    d = np.concatenate([np.diff(s) for s in cr.recording.nn_segments() if s.size > 1])
+    m = rrkit.metrics(cr, domains=["time"])
+    assert m["rmssd_ms"] == pytest.approx(math.sqrt(np.mean(d ** 2)), rel=1e-12)
+    nn = cr.recording.rr_ms[~cr.recording.gaps]
+    assert m["sdnn_ms"] == pytest.approx(nn.std(ddof=1), rel=1e-12)
