@@ -18,6 +18,7 @@ so that the cost of sending a task is paid once per chunk, not once per file.
 
 from __future__ import annotations
 
+import gc
 import os
 from collections.abc import Callable, Iterable, Iterator
 from concurrent.futures import FIRST_COMPLETED, CancelledError, ProcessPoolExecutor, wait
@@ -129,8 +130,20 @@ class LocalExecutor:
                     break
             if not chunk:
                 return False
+            fresh = self._pool is None
             pool = self._ensure()
-            pending[pool.submit(_run_chunk, fn, chunk)] = (chunk, pool)
+            if fresh:
+                # worker processes start at the first submit; objects that exist now move to
+                # the permanent generation first, so the workers' garbage collector never walks
+                # (and copies) the parent's heap (gc.freeze, Python >= 3.7)
+                gc.freeze()
+                try:
+                    fut = pool.submit(_run_chunk, fn, chunk)
+                finally:
+                    gc.unfreeze()
+            else:
+                fut = pool.submit(_run_chunk, fn, chunk)
+            pending[fut] = (chunk, pool)
             return True
 
         for _ in range(2 * self.n_workers):
