@@ -7,8 +7,8 @@ agreement of device-reported values with recomputed ones.
 rrkit is not a medical device and makes no diagnosis.
 """
 
+from . import windows
 from ._version import __version__
-from .analysis import analyze
 from .agreement import (
     AgreementResult,
     DefinitionSearch,
@@ -17,49 +17,55 @@ from .agreement import (
     reference_table,
     search_definitions,
 )
+from .analysis import analyze
+from .batch import run_daily
 from .clean import CleanResult, CleanSettings, CleanSummary, clean
 from .daily import BaselineSettings, DailySettings, daily_table
-from .batch import run_daily
 from .errors import InputError, QualityWarning, RrkitWarning
 from .io import read, write_rr
-from . import windows
 from .metrics import Bands, MetricsResult, MetricsSettings, Spectrum, metrics, spectrum
 from .recording import ReadInfo, Recording
 from .windows import MORNING, Window, parse_window, resolve_windows
 
 __all__ = [
-    "AgreementResult",
-    "DefinitionSearch",
-    "ReferenceDefinition",
-    "Bands",
-    "BaselineSettings",
-    "CleanResult",
-    "CleanSettings",
-    "CleanSummary",
-    "DailySettings",
+    # model and errors
     "InputError",
-    "MORNING",
-    "MetricsResult",
-    "MetricsSettings",
     "QualityWarning",
     "ReadInfo",
     "Recording",
     "RrkitWarning",
+    "__version__",
+    # reading
+    "read",
+    "write_rr",
+    # cleaning
+    "CleanResult",
+    "CleanSettings",
+    "CleanSummary",
+    "clean",
+    # windows and metrics
+    "MORNING",
+    "Bands",
+    "MetricsResult",
+    "MetricsSettings",
     "Spectrum",
     "Window",
-    "__version__",
-    "agreement",
     "analyze",
-    "reference_table",
-    "search_definitions",
-    "clean",
-    "daily_table",
     "metrics",
     "parse_window",
-    "read",
     "resolve_windows",
-    "run_daily",
     "spectrum",
     "windows",
-    "write_rr",
+    # daily tables and batch runs
+    "BaselineSettings",
+    "DailySettings",
+    "daily_table",
+    "run_daily",
+    # agreement
+    "AgreementResult",
+    "DefinitionSearch",
+    "ReferenceDefinition",
+    "agreement",
+    "reference_table",
+    "search_definitions",
 ]

@@ -91,7 +91,7 @@ def analyze(
     --------
     >>> import rrkit
     >>> from rrkit.simulate import simulate_rr
-    >>> df = rrkit.analyze(simulate_rr(duration_s=600, seed=1), windows="slide:5m")
+    >>> df = rrkit.analyze(simulate_rr(duration_s=630, seed=1), windows="slide:5m")
     >>> df["window"].tolist()
     ['slide-001', 'slide-002']
     """

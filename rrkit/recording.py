@@ -118,11 +118,11 @@ class Recording:
 
     Examples
     --------
-    >>> rec = Recording.from_rr([800, 810, 790])
+    >>> rec = Recording.from_rr([500, 750, 1000])
     >>> rec.beat_times_s.tolist()
-    [0.0, 0.8, 1.61, 2.4]
+    [0.0, 0.5, 1.25, 2.25]
     >>> rec.n_intervals, rec.duration_s
-    (3, 2.4)
+    (3, 2.25)
     """
 
     beat_times_s: np.ndarray

@@ -503,6 +503,22 @@ def parse_duration(text: str, *, name: str = "duration") -> float:
 def parse_window(text: str) -> WindowSpec | list[WindowSpec]:
     """Parse the command-line window syntax into a spec (a list when joined with ``;``).
 
+    Parameters
+    ----------
+    text : str
+        One spec (``whole``, ``morning``, ``start:60+300``, ``last:5m``, ``slide:5m/1m``,
+        ``clock:04:00-07:00@Europe/Paris,stable=5m``, ``events:FILE.csv``) or several joined
+        with ``;``. Durations take ``s`` (default), ``m`` or ``h``. See ``docs/windows.md``.
+
+    Returns
+    -------
+    WindowSpec or list of WindowSpec
+
+    Raises
+    ------
+    InputError
+        When the text is not in this syntax (the message shows what was expected).
+
     Examples
     --------
     >>> parse_window("start:60+300")
