@@ -158,7 +158,7 @@ def run(cfg) -> CaseResult:
 
     work = Path(tempfile.mkdtemp(prefix="rrkit-bench-season-"))
     try:
-        reps = cfg.reps(2, 1)
+        reps = cfg.reps(3, 1)
         times = {1: [], 2: []}
         for rep in range(reps):
             for jobs in (1, 2):
