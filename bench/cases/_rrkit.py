@@ -16,9 +16,9 @@ def sliding(length_s: float, step_s: float) -> Any:
 
 def analyze(recording: Any, windows: Any, *, clean: Any) -> Any:
     """``rrkit.analyze`` with every metric domain and Welch spectra."""
-    from rrkit.analysis import analyze as _analyze  # exported as rrkit.analyze
+    import rrkit
 
-    return _analyze(recording, windows=windows, clean=clean, psd="welch")
+    return rrkit.analyze(recording, windows=windows, clean=clean, psd="welch")
 
 
 def metric_rows(table: Any) -> list[dict[str, Any]]:
