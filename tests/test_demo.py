@@ -143,3 +143,28 @@ def test_agreement_search_finds_the_hidden_definition(full_run):
     text = (out / "summary.txt").read_text()
     assert f"closest definition {WEARABLE['definition']!r}" in text
     assert np.isfinite(table.iloc[0].filter(like="bias").astype(float)).all()
+
+
+def test_demo_figure_names_never_leave_the_figure_folder(small_run, tmp_path):
+    """A subject id taken from a manifest or file name becomes one safe file-name component
+    (no ``..``, no separators), as for the store's group names (rrkit.batch.safe_name)."""
+    from types import SimpleNamespace
+
+    from rrkit.batch import safe_name
+    from rrkit.cli._demo import _figures
+
+    _rc, data, out = small_run
+    table = pd.read_csv(out / "daily" / "daily.csv", parse_dates=["date"])
+    table["date"] = table["date"].dt.date
+    hostile = "../../escaped"
+    table = table[table["subject"] == "R01"].assign(subject=hostile)
+    run = SimpleNamespace(table=table, recordings=pd.DataFrame())
+    dest = tmp_path / "deep" / "out"
+    written = _figures(data, dest, run, load=None, meta={}, ectopy={}, agree=None,
+                       note=lambda _t: None)
+    fig_dir = (dest / "figures").resolve()
+    for p in written:
+        assert Path(p).resolve().parent == fig_dir, p
+    assert (fig_dir / f"trend_{safe_name(hostile)}.png").is_file()
+    assert not (tmp_path / "escaped.png").exists()
+    assert not list(tmp_path.glob("trend_*")) and not list((tmp_path / "deep").glob("*.png"))

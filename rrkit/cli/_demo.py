@@ -208,6 +208,7 @@ def _phases(meta):
 
 
 def _figures(folder, out, run, *, load, meta, ectopy, agree, note):
+    from ..batch import safe_name
     from ..clean import clean
     from ..io import read
     from ..plots import athlete_trend, recording_diagnostic, squad_overview
@@ -220,7 +221,8 @@ def _figures(folder, out, run, *, load, meta, ectopy, agree, note):
     written.append(squad_overview(table, fig_dir / "squad_overview.png", phases=phases) and
                    fig_dir / "squad_overview.png")
     for subject in sorted(table["subject"].astype(str).unique()):
-        path = fig_dir / f"trend_{subject}.png"
+        # subject ids are untrusted text: one safe file-name component, never a path
+        path = fig_dir / f"trend_{safe_name(subject)}.png"
         athlete_trend(table, subject, path, load=load, phases=phases)
         written.append(path)
     note(f"{len(written)} trend and overview figures")
@@ -235,7 +237,8 @@ def _figures(folder, out, run, *, load, meta, ectopy, agree, note):
             top = max(ectopy, key=lambda s: ectopy[s]["per_hour"])
             mine = usable[usable["subject"].astype(str) == top]
             if len(mine):
-                picks.append((f"ectopy_{top}", mine.sort_values("source").iloc[len(mine) // 2]))
+                middle = mine.sort_values("source").iloc[len(mine) // 2]
+                picks.append((f"ectopy_{safe_name(top)}", middle))
     for tag, row in picks:
         src = folder / "mornings" / str(row["source"])
         result = clean(read(src, subject=str(row["subject"])))
