@@ -311,8 +311,28 @@ class Recording:
             rr = self.rr_ms[lo:hi - 1]
             gaps = self.gaps[lo:hi - 1]
             sym = None if self.beat_symbols is None else self.beat_symbols[lo:hi]
-        return Recording(t, rr, start=self.start, subject=self.subject, source=self.source,
-                         info=self.info, gaps=gaps, beat_symbols=sym)
+        return self._valid_part(t, rr, gaps, sym)
+
+    def _valid_part(self, t: np.ndarray, rr: np.ndarray, gaps: np.ndarray,
+                    sym: np.ndarray | None) -> Recording:
+        """A recording with this one's metadata and arrays already known to be valid.
+
+        For contiguous parts of this recording's own arrays (or empty arrays): a slice of valid
+        arrays is valid (times still increase, intervals still agree with them), so the checks of
+        ``__post_init__`` are skipped. The arrays are copied and made read-only, as the
+        constructor does; ``gaps`` must be bool and ``sym`` (or None) of this recording's dtype.
+        """
+        out = object.__new__(Recording)
+        put = object.__setattr__
+        put(out, "beat_times_s", _readonly(np.array(t, dtype=np.float64, copy=True)))
+        put(out, "rr_ms", _readonly(np.array(rr, dtype=np.float64, copy=True)))
+        put(out, "gaps", _readonly(np.array(gaps, dtype=bool, copy=True)))
+        put(out, "beat_symbols", None if sym is None else _readonly(np.array(sym, copy=True)))
+        put(out, "start", self.start)
+        put(out, "subject", self.subject)
+        put(out, "source", self.source)
+        put(out, "info", self.info)
+        return out
 
     def nn_segments(self) -> list[np.ndarray]:
         """The runs of consecutive usable intervals (split at gaps), as views of ``rr_ms``."""

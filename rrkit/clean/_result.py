@@ -6,6 +6,7 @@ This module defines the containers and the audit arithmetic (`summarize`), which
 
 from __future__ import annotations
 
+from collections import Counter
 from collections.abc import Mapping
 from dataclasses import dataclass, field
 from types import MappingProxyType
@@ -162,12 +163,13 @@ class CleanResult:
         hi = t.size if end_s is None else int(np.searchsorted(t, end_s + 1e-9, side="right"))
         if hi - lo < 2:
             lo = hi = 0
-        inp = self.input.slice_beats(lo, hi)
+        # parts of already validated recordings are valid: no second round of checks
+        inp = self.input._take(lo, hi)
         i_lo, i_hi = lo, max(hi - 1, lo)  # input intervals [i_lo, i_hi)
         c_lo = int(np.searchsorted(self.origin, i_lo, side="left"))
         c_hi = int(np.searchsorted(self.origin, i_hi, side="left"))
-        rec = self.recording.slice_beats(c_lo, c_hi + 1) if c_hi > c_lo else \
-            self.recording.slice_beats(0, 0)
+        rec = self.recording._take(c_lo, c_hi + 1) if c_hi > c_lo else \
+            self.recording._take(0, 0)
         origin = self.origin[c_lo:c_hi] - i_lo
         labels = self.labels[i_lo:i_hi]
         changed = self.changed[i_lo:i_hi]
@@ -232,22 +234,34 @@ def summarize(labels: np.ndarray, changed: np.ndarray, gaps: np.ndarray, rr_ms: 
     ``ectopic_per_hour = n_ectopic_beats / (sum of those intervals in hours)``. The window is
     ``flagged`` when ``corrected_pct > max_corrected_pct`` or when it has no usable interval.
     """
-    usable = ~np.asarray(gaps, bool)
-    lab = np.asarray(labels)[usable]
-    n = int(lab.size)
-    counts = {name: int(np.count_nonzero(lab == name)) for name in LABELS}
-    art = lab != "normal"
-    n_changed = int(np.count_nonzero(np.asarray(changed)[usable]))
-    artifact_pct = 100.0 * int(art.sum()) / n if n else float("nan")
+    labels = np.asarray(labels)
+    gaps = np.asarray(gaps, bool)
+    changed = np.asarray(changed, bool)
+    rr_ms = np.asarray(rr_ms)
+    any_gap = bool(gaps.any())
+    usable = ~gaps
+    # non-normal usable intervals; gaps break a run and are counted nowhere
+    bad = labels != "normal"
+    if any_gap:
+        bad &= usable
+    n = int(np.count_nonzero(usable))
+    n_bad = int(np.count_nonzero(bad))
+    # every count from the (few) non-normal labels; the rest are normal
+    odd = Counter(labels[bad].tolist()) if n_bad else {}
+    counts = {name: int(odd.get(name, 0)) for name in LABELS}
+    counts["normal"] = n - n_bad
+    n_changed = int(np.count_nonzero(changed[usable] if any_gap else changed))
+    artifact_pct = 100.0 * n_bad / n if n else float("nan")
     corrected_pct = 100.0 * n_changed / n if n else float("nan")
-    # longest run of consecutive non-normal intervals (gaps break a run)
-    bad = (np.asarray(labels) != "normal") & usable
-    if bad.any():
-        edges = np.flatnonzero(np.diff(np.concatenate(([0], bad.astype(np.int8), [0]))))
+    # longest run of consecutive non-normal intervals
+    if n_bad:
+        padded = np.zeros(bad.size + 2, dtype=bool)
+        padded[1:-1] = bad
+        edges = np.flatnonzero(padded[1:] != padded[:-1])  # run starts and ends, alternating
         longest = int((edges[1::2] - edges[::2]).max())
     else:
         longest = 0
-    hours = float(np.sum(np.asarray(rr_ms)[usable])) / 3.6e6
+    hours = float(np.sum(rr_ms[usable] if any_gap else rr_ms)) / 3.6e6
     per_hour = n_ectopic_beats / hours if hours > 0 else 0.0
     max_pct = getattr(settings, "max_corrected_pct", 5.0)
     if n == 0:
