@@ -406,7 +406,42 @@ def test_frequent_premature_beats_carry_the_caution(tmp_path, capsys):
     assert "does not diagnose" in b["caution"]
     assert (daily.loc[daily["subject"] == "A01", "caution"] == "").all()
     text = capsys.readouterr().out
-    assert "frequent premature beats on 1 day(s) (B02" in text
+    assert "frequent premature beats (B02 on 1 day(s)" in text
+    assert "does not diagnose" in text
+
+
+def test_premature_beat_caution_tells_noisy_mornings_apart():
+    """A caution that only fires on noisy mornings, where the premature beats are a minority of
+    the non-normal intervals, is reported apart: in a noisy 5-minute window a few beats
+    labelled premature may be noise (rrkit's reporting rule; the rate is the artifact stage's).
+    """
+    from rrkit.cli._daily import ectopy_lines
+
+    def c(n):
+        return f"{n} premature beats (36 per hour, above 30 per hour). rrkit does not diagnose"
+
+    table = pd.DataFrame({
+        "subject": ["P1", "P1", "P2", "N1", "N2", "Q1"],
+        "quality": ["ok", "flagged", "flagged", "flagged", "flagged", "ok"],
+        # P2: 12 beats -> 24 of 26 non-normal intervals; N1: 4 beats -> 8 of 36; N2: 3 of 35
+        "n_beats": [300, 300, 400, 240, 270, 300],
+        "artifact_pct": [2.0, 9.0, 6.5, 15.0, 13.0, 0.0],
+        "caution": [c(3), c(4), c(12), c(4), c(3), ""]})
+    lines = ectopy_lines(table)
+    assert len(lines) == 2
+    assert lines[0].startswith("frequent premature beats (P1 on 2 day(s), P2 on 1 day(s);")
+    assert "clinician" in lines[0]
+    assert lines[1].startswith("premature beats counted only on noisy mornings, among other "
+                               "artifacts: N1 (1 day(s)), N2 (1 day(s));")
+    assert "clinician" in lines[1]
+    assert "does not diagnose" in lines[1]
+    # the boundary: 2 x 9 = 18 premature intervals of 36 non-normal ones is half -> stands
+    half = table.iloc[[3]].assign(caution=c(9))
+    assert ectopy_lines(half)[0].startswith("frequent premature beats (N1 on 1 day(s)")
+    # an unreadable count errs on the cautious side
+    odd = table.iloc[[3]].assign(caution="premature beats, many")
+    assert ectopy_lines(odd)[0].startswith("frequent premature beats (N1")
+    assert ectopy_lines(table.assign(caution="")) == []
 
 
 def _timestamped(path: Path, start: dt.datetime, seed: int) -> Path:

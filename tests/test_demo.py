@@ -167,4 +167,5 @@ def test_demo_figure_names_never_leave_the_figure_folder(small_run, tmp_path):
         assert Path(p).resolve().parent == fig_dir, p
     assert (fig_dir / f"trend_{safe_name(hostile)}.png").is_file()
     assert not (tmp_path / "escaped.png").exists()
-    assert not list(tmp_path.glob("trend_*")) and not list((tmp_path / "deep").glob("*.png"))
+    assert not list(tmp_path.glob("trend_*"))
+    assert not list((tmp_path / "deep").glob("*.png"))

@@ -26,6 +26,72 @@ CAUTION = ("rrkit is not a medical device and makes no diagnosis; a value outsid
            "qualified staff.")
 
 
+_PREMATURE_N = re.compile(r"^\s*(\d+) premature beats")
+
+
+def _premature_dominates(row) -> bool:
+    """Whether a morning's caution rests on premature beats rather than on noise.
+
+    True when the morning is ``ok``, or when the premature beats' intervals (two per beat: the
+    early one and the pause after it, as the artifact stage labels them) make up at least half
+    of the morning's non-normal intervals (``artifact_pct`` of ``n_beats``). A caution whose
+    count cannot be read counts as resting on premature beats (the cautious side).
+    """
+    if str(row["quality"]) == "ok":
+        return True
+    m = _PREMATURE_N.match(str(row["caution"]))
+    try:
+        n_bad = float(row["artifact_pct"]) / 100.0 * float(row["n_beats"])
+    except (KeyError, TypeError, ValueError):
+        return True
+    if m is None or not n_bad > 0:
+        return True
+    return 2 * int(m.group(1)) >= 0.5 * n_bad
+
+
+def ectopy_lines(table) -> list[str]:
+    """The premature-beat caution lines for the end of a run, one per kind of evidence.
+
+    The artifact stage attaches its caution to a morning when premature beats exceed a rate
+    (see `rrkit.CleanSettings`). In a 5-minute window three beats make that rate, and in a
+    noisy recording some beats labelled premature may be noise. So a subject is listed with
+    frequent premature beats when at least one cautioned morning is ``ok`` or has premature
+    beats for most of its non-normal intervals; subjects whose cautioned mornings are all
+    mostly noise are listed apart, as recordings to look at. Both lines defer to a clinician:
+    rrkit does not diagnose either way.
+
+    Parameters
+    ----------
+    table : pandas.DataFrame
+        The daily table, with ``subject``, ``quality``, ``caution``, ``artifact_pct`` (%) and
+        ``n_beats``.
+
+    Returns
+    -------
+    list of str
+        Empty when no morning carries the caution.
+    """
+    marked = table[table["caution"].fillna("").astype(str) != ""]
+    if not len(marked):
+        return []
+    subject = marked["subject"].astype(str)
+    stands = marked.apply(_premature_dominates, axis=1).astype(bool)
+    firm = sorted(subject[stands].unique())
+    per = subject.value_counts()
+    lines = []
+    if firm:
+        who = ", ".join(f"{s} on {int(per[s])} day(s)" for s in firm)
+        lines.append(f"frequent premature beats ({who}; see the caution column): "
+                     + ECTOPY_CAUTION)
+    rest = sorted(set(subject) - set(firm))
+    if rest:
+        who = ", ".join(f"{s} ({int(per[s])} day(s))" for s in rest)
+        lines.append(f"premature beats counted only on noisy mornings, among other artifacts: "
+                     f"{who}; the count may come from noise. Look at these recordings and, if "
+                     "in doubt, have them reviewed by a clinician; rrkit does not diagnose.")
+    return lines
+
+
 def _wake(text: str) -> tuple[str, str]:
     m = re.fullmatch(r"\s*(\d{1,2}:\d{2})\s*-\s*(\d{1,2}:\d{2})\s*", text or "")
     if not m:
@@ -126,11 +192,8 @@ def command(folder, outdir, manifest, pattern, window, tz, wake, pick, clean_met
         click.echo(f"{summary.n_failed} files failed or could not be placed: see "
                    f"{outdir / 'errors.csv'}")
     if len(table) and "caution" in table.columns:
-        flagged = table[table["caution"].fillna("").astype(str) != ""]
-        if len(flagged):
-            who = ", ".join(sorted(flagged["subject"].astype(str).unique()))
-            click.echo(f"frequent premature beats on {len(flagged)} day(s) ({who}; see the "
-                       "caution column): " + ECTOPY_CAUTION)
+        for line in ectopy_lines(table):
+            click.echo(line)
     if summary.last_date is not None:
         if summary.below_band:
             click.echo(f"7-day ln-RMSSD below the band on {summary.last_date}: "
