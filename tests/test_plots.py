@@ -133,3 +133,24 @@ def test_plot_command_diagnostic_and_trend(tmp_path):
     assert_png(tmp_path / "daily_overview.png")
     # several subjects and no --subject: a one-line error naming the choices
     assert main(["plot", str(daily_csv), "--kind", "trend"]) == 2
+
+
+def test_diagnostic_caution_wording_follows_the_evidence():
+    """The premature-beat caution reads firm where premature beats make up the artifacts, and
+    'may be noise' where they are a minority of a flagged window's artifacts; both defer to a
+    clinician (rrkit does not diagnose)."""
+    from rrkit.simulate import inject_artifacts, simulate_rr
+
+    rec = simulate_rr(duration_s=360, seed=5)
+    pvc, _ = inject_artifacts(rec, counts={"ectopic": 12}, seed=3)  # ~120 per hour, nothing else
+    firm = recording_diagnostic(rrkit.clean(pvc))._suptitle.get_text()
+    assert "caution: frequent premature beats" in firm
+    noisy_rec, _ = inject_artifacts(rec, counts={"ectopic": 4, "missed": 12, "extra": 12},
+                                    seed=3)
+    noisy = rrkit.clean(noisy_rec)
+    assert noisy.summary.caution  # the artifact stage still attaches its caution
+    assert noisy.summary.quality == "flagged"
+    soft = recording_diagnostic(noisy)._suptitle.get_text()
+    assert "may be noise" in soft
+    assert "clinician" in soft
+    assert "does not diagnose" in soft

@@ -69,13 +69,28 @@ def recording_diagnostic(result, path=None, *, window_s=None, psd: str = "welch"
     s = part.summary
     head = (f"{title}\n{s.artifact_pct:.1f}% artifacts, {s.corrected_pct:.1f}% corrected, "
             f"quality {s.quality}" + (f" ({s.quality_reason})" if s.quality_reason else ""))
-    if s.caution or result.summary.caution:
-        head += ("\ncaution: frequent premature beats; rrkit does not diagnose, "
-                 "a clinician should see this recording")
+    cautioned = s if s.caution else result.summary if result.summary.caution else None
+    if cautioned is not None:
+        head += "\n" + _caution_line(cautioned)
     fig.suptitle(head, fontsize=12)
     if path is not None:
         save(fig, path, dpi=dpi)
     return fig
+
+
+def _caution_line(summary) -> str:
+    """The figure's premature-beat caution; softer where noise dominates a flagged window.
+
+    In a flagged window whose ``ectopic`` intervals are less than half of its non-normal ones,
+    some beats labelled premature may be noise (the same rule as ``rrkit daily``'s report).
+    """
+    n_bad = summary.n_intervals - summary.counts.get("normal", 0)
+    n_ect = summary.counts.get("ectopic", 0)
+    if summary.quality == "flagged" and n_bad > 0 and n_ect < 0.5 * n_bad:
+        return ("caution: premature beats counted among many other artifacts (may be noise); "
+                "rrkit does not diagnose, if in doubt a clinician should see this recording")
+    return ("caution: frequent premature beats; rrkit does not diagnose, "
+            "a clinician should see this recording")
 
 
 def _tachogram(ax, result, window_s) -> None:
@@ -168,7 +183,8 @@ def _poincare(ax, rec, values) -> None:
                 lw=1.5)
         ax.plot([c, c + sd1 * v[0]], [c, c + sd1 * v[1]], color=OKABE_ITO["green"], lw=1.5)
         ax.text(0.03, 0.97,
-                f"SD1 {sd1:.1f} ms (green)\nSD2 {sd2:.1f} ms (red)\nsemi-axes of the ellipse",
+                f"SD1 {sd1:.1f} ms (short semi-axis)\nSD2 {sd2:.1f} ms (long semi-axis,\n"
+                "along the identity line)",
                 transform=ax.transAxes, va="top", fontsize=9,
                 bbox={"facecolor": "white", "alpha": 0.85, "lw": 0})
     if x.size:
