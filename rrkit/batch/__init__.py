@@ -11,7 +11,7 @@ Public entry point: `run_daily` (also the ``rrkit daily`` command). The parts:
 * untrusted strings (`safe_name`, `neutralize_cells`).
 """
 
-from ._atomic import atomic_path, atomic_write_bytes, atomic_write_text
+from .._atomic import atomic_path, atomic_write_bytes, atomic_write_text
 from ._discover import DEFAULT_EXTENSIONS, Candidate, Discovery, discover, read_manifest
 from ._executor import Executor, InlineExecutor, LocalExecutor, default_jobs
 from ._pattern import DEFAULT_PATTERN, FilenamePattern

@@ -15,10 +15,10 @@ from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any
 
+from .._atomic import atomic_path, atomic_write_text, remove_stale_temporaries
 from .._version import __version__
 from ..daily import DAILY_METRICS, DailySettings, daily_table, weekly_summary
 from ..errors import InputError
-from ._atomic import atomic_path, atomic_write_text, remove_stale_temporaries
 from ._discover import Candidate, assign, discover, sha256_file
 from ._executor import Executor, LocalExecutor
 from ._pattern import FilenamePattern

@@ -24,8 +24,8 @@ from typing import Any
 
 import numpy as np
 
+from .._atomic import atomic_path
 from ..daily import DailySettings, _plain, measure_recording
-from ._atomic import atomic_path
 
 __all__ = ["ARRAY_NAMES", "ResultCache", "process_and_cache", "process_file", "settings_hash"]
 

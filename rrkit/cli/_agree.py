@@ -8,11 +8,11 @@ Console example::
 
 from __future__ import annotations
 
-import os
-import tempfile
 from pathlib import Path
 
 import click
+
+from .._atomic import atomic_write_text
 
 __all__ = ["command"]
 
@@ -27,20 +27,6 @@ OUTPUTS = {
     "reference": "reference_values.csv",
     "errors": "errors.csv",
 }
-
-
-def _atomic_text(path: Path, text: str) -> None:
-    fd, tmp = tempfile.mkstemp(prefix=f".{path.name}.", suffix=".tmp", dir=path.parent)
-    try:
-        with os.fdopen(fd, "w", encoding="utf-8", newline="") as fh:
-            fh.write(text)
-        umask = os.umask(0)
-        os.umask(umask)
-        os.chmod(tmp, 0o666 & ~umask)
-        os.replace(tmp, path)
-    except BaseException:
-        Path(tmp).unlink(missing_ok=True)
-        raise
 
 
 def _csv(df) -> str:
@@ -168,7 +154,7 @@ def command(ctx, reported_path, folder, outdir, metric, definition, clean_name, 
         found = search_definitions(reported, nights, metric=metric, ratio=ratio,
                                    multiplier=multiplier, progress=progress)
         definition, clean_name = found.best
-        _atomic_text(outdir / OUTPUTS["search"], _csv(found.table))
+        atomic_write_text(outdir / OUTPUTS["search"], _csv(found.table), fsync=False)
         written.append(OUTPUTS["search"])
         ref = found.reference[(found.reference["definition"] == definition)
                               & (found.reference["cleaning"] == clean_name)]
@@ -181,9 +167,9 @@ def command(ctx, reported_path, folder, outdir, metric, definition, clean_name, 
     stats = res.table
     stats.insert(0, "definition", definition)
     stats.insert(1, "cleaning", clean_name)
-    _atomic_text(outdir / OUTPUTS["stats"], _csv(stats))
-    _atomic_text(outdir / OUTPUTS["pairs"], _csv(res.pairs))
-    _atomic_text(outdir / OUTPUTS["reference"], _csv(ref))
+    atomic_write_text(outdir / OUTPUTS["stats"], _csv(stats), fsync=False)
+    atomic_write_text(outdir / OUTPUTS["pairs"], _csv(res.pairs), fsync=False)
+    atomic_write_text(outdir / OUTPUTS["reference"], _csv(ref), fsync=False)
     desc = REFERENCE_DEFINITIONS[definition].description if definition in \
         REFERENCE_DEFINITIONS else ""
     header = (f"Reference: {definition} ({desc}), cleaning {clean_name}; "
@@ -191,13 +177,13 @@ def command(ctx, reported_path, folder, outdir, metric, definition, clean_name, 
     text = header + res.summary_text()
     if search_text:
         text = search_text + "\n" + "=" * 78 + "\n\n" + text
-    _atomic_text(outdir / OUTPUTS["summary"], text)
+    atomic_write_text(outdir / OUTPUTS["summary"], text, fsync=False)
     res.plot(outdir / OUTPUTS["png"])
     res.plot(outdir / OUTPUTS["svg"])
     written += [OUTPUTS[k] for k in ("stats", "pairs", "reference", "summary", "png", "svg")]
     if problems:
         err = pd.DataFrame(problems, columns=["path", "error", "message"])
-        _atomic_text(outdir / OUTPUTS["errors"], _csv(err))
+        atomic_write_text(outdir / OUTPUTS["errors"], _csv(err), fsync=False)
         written.append(OUTPUTS["errors"])
     click.echo(text, nl=False)
     for rel, kind, message in problems:

@@ -9,12 +9,11 @@ Console example::
 
 from __future__ import annotations
 
-import os
-import tempfile
 from pathlib import Path
 
 import click
 
+from .._atomic import atomic_path
 from ..clean import LABELS, METHODS, STRATEGIES, CleanResult, clean
 from ..errors import InputError
 from ..io import KINDS, UNITS, read, write_rr
@@ -59,15 +58,8 @@ def _write_table(result: CleanResult, dest: Path) -> None:
     if not dest.parent.is_dir():
         raise InputError("the folder to write into does not exist", path=dest.parent)
     frame = result.to_frame()
-    fd, tmp = tempfile.mkstemp(dir=dest.parent, prefix=f".{dest.name}.", suffix=".tmp")
-    try:
-        with os.fdopen(fd, "w", newline="") as fh:
-            frame.to_csv(fh, index=False, float_format="%.6f")
-        os.replace(tmp, dest)
-    except BaseException:
-        if os.path.exists(tmp):
-            os.unlink(tmp)
-        raise
+    with atomic_path(dest, fsync=False) as tmp, open(tmp, "w", newline="") as fh:
+        frame.to_csv(fh, index=False, float_format="%.6f")
 
 
 @click.command("clean")

@@ -5,11 +5,11 @@ from __future__ import annotations
 import gzip
 import logging
 import os
-import tempfile
 from pathlib import Path
 
 import numpy as np
 
+from .._atomic import atomic_write_bytes
 from .._validation import as_float_array, check_option
 from ..errors import InputError
 from ..recording import Recording
@@ -83,13 +83,5 @@ def write_rr(
         data = gzip.compress(data, mtime=0)
     if not dest.parent.is_dir():
         raise InputError("the folder to write into does not exist", path=dest.parent)
-    fd, tmp = tempfile.mkstemp(dir=dest.parent, prefix=f".{dest.name}.", suffix=".tmp")
-    try:
-        with os.fdopen(fd, "wb") as fh:
-            fh.write(data)
-        os.replace(tmp, dest)
-    except BaseException:
-        if os.path.exists(tmp):
-            os.unlink(tmp)
-        raise
+    atomic_write_bytes(dest, data, fsync=False)
     return dest

@@ -21,18 +21,17 @@ table's extra columns) are used only when they are plain identifiers, else repla
 
 from __future__ import annotations
 
-import contextlib
 import hashlib
 import json
 import os
 import re
-import tempfile
 from collections.abc import Iterable, Mapping
 from pathlib import Path
 from typing import Any
 
 import numpy as np
 
+from .._atomic import atomic_path
 from .._version import __version__
 from ..clean._result import LABELS
 from ..errors import InputError
@@ -57,30 +56,7 @@ _REC_INT = ("interval_start", "interval_stop", "corrected_start", "corrected_sto
             "window_start", "window_stop")
 
 
-# The suffix `rrkit.batch` removes after an interrupted run (rrkit.batch._atomic.TMP_SUFFIX).
-_TMP_SUFFIX = ".rrkit-tmp"
 _PLAIN_NAME = re.compile(r"[A-Za-z][A-Za-z0-9_]{0,63}")
-
-
-@contextlib.contextmanager
-def _temporary_beside(path, *, fsync: bool):
-    """A temporary file beside ``path`` that replaces it (`os.replace`) once complete."""
-    path = Path(path)
-    fd, tmp = tempfile.mkstemp(prefix=f".{path.name}.", suffix=_TMP_SUFFIX, dir=path.parent)
-    os.close(fd)
-    mask = os.umask(0)
-    os.umask(mask)
-    os.chmod(tmp, 0o666 & ~mask)
-    try:
-        yield Path(tmp)
-        if fsync:
-            with open(tmp, "rb+") as fh:
-                os.fsync(fh.fileno())
-        os.replace(tmp, path)
-    except BaseException:
-        with contextlib.suppress(FileNotFoundError):
-            os.unlink(tmp)
-        raise
 
 
 def _dataset_name(column: str, index: int) -> str:
@@ -232,7 +208,7 @@ def write_store(
     corrected["gap"] = cat(cor_gap, bool)
     corrected["origin"] = cat(cor_org, np.int64)
 
-    with _temporary_beside(path, fsync=fsync) as tmp, h5py.File(tmp, "w", track_order=True) as h5:
+    with atomic_path(path, fsync=fsync) as tmp, h5py.File(tmp, "w", track_order=True) as h5:
         h5.attrs["format"] = STORE_FORMAT
         h5.attrs["format_version"] = STORE_VERSION
         h5.attrs["rrkit_version"] = __version__

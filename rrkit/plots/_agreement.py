@@ -2,12 +2,11 @@
 
 from __future__ import annotations
 
-import os
-import tempfile
 from pathlib import Path
 
 import numpy as np
 
+from .._atomic import atomic_path
 from ..errors import InputError
 from ._style import OKABE_ITO, new_figure
 
@@ -188,15 +187,7 @@ def _atomic_save(fig, path, *, dpi: int) -> Path:
         raise InputError(f"figure path {str(out)!r} must end in .png, .svg or .pdf; got "
                          f"{suffix or 'no suffix'!r}")
     out.parent.mkdir(parents=True, exist_ok=True)
-    fd, tmp = tempfile.mkstemp(prefix=f".{out.stem}.", suffix=suffix, dir=out.parent)
-    os.close(fd)
-    try:
-        fig.savefig(tmp, dpi=dpi, facecolor="white", bbox_inches="tight")
-        umask = os.umask(0)
-        os.umask(umask)
-        os.chmod(tmp, 0o666 & ~umask)  # mkstemp creates 0600; give the usual file mode
-        os.replace(tmp, out)
-    except BaseException:
-        Path(tmp).unlink(missing_ok=True)
-        raise
+    # the temporary name does not end in the figure's suffix: say the format
+    with atomic_path(out, fsync=False) as tmp:
+        fig.savefig(tmp, format=suffix[1:], dpi=dpi, facecolor="white", bbox_inches="tight")
     return out
