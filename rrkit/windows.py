@@ -302,7 +302,8 @@ class ClockTime(WindowSpec):
         if recording.start is None:
             raise InputError("a clock-time window needs the recording's absolute start time; "
                              f"{recording!r} has none",
-                             hint="read a file with timestamps or pass start=")
+                             hint="read a file with a timestamp column, build the Recording with "
+                                  "start=..., or on the command line pass --start")
         if self.stable_s is not None and clean_result is None:
             raise InputError("a clock window with stable_s needs the cleaning result "
                              "(fewest corrected beats decides)", hint="pass clean_result=")

@@ -184,6 +184,75 @@ def test_cli_json_has_every_key(rr_file, capsys):
     assert data[0]["rmssd_ms"] == pytest.approx(table["rmssd_ms"].iloc[0])
 
 
+def test_cli_json_carries_the_settings(rr_file, capsys):
+    # provenance: every window object names the settings behind its numbers (the same dicts
+    # rrkit.analyze keeps in DataFrame.attrs), so two numbers can be traced to their settings
+    args = ["analyze", str(rr_file), "-w", "slide:5m", "--psd", "lomb", "--clean", "median",
+            "--band", "hf=0.15-0.5", "--format", "json"]
+    assert main(args) == 0
+    data = json.loads(capsys.readouterr().out)
+    table = rrkit.analyze(rrkit.read(rr_file), windows="slide:5m", psd="lomb", clean="median",
+                          bands={"hf": (0.15, 0.5)})
+    for d in data:
+        got = d["settings"]
+        assert got["rrkit_version"] == rrkit.__version__
+        assert got["metrics"] == json.loads(json.dumps(table.attrs["metrics_settings"]))
+        assert got["clean"] == json.loads(json.dumps(table.attrs["clean_settings"]))
+        assert got["metrics"]["psd"] == "lomb"
+        assert got["metrics"]["bands.hf_hz"] == [0.15, 0.5]
+        assert got["clean"]["method"] == "median"
+    assert main(["analyze", str(rr_file), "--clean", "none", "--format", "json"]) == 0
+    assert json.loads(capsys.readouterr().out)[0]["settings"]["clean"] is None
+
+
+def test_cli_start_enables_clock_windows(rr_file, tmp_path, capsys):
+    # a file without timestamps takes its absolute start from --start; the clock window is then
+    # placed on the recording clock through it (hand-computed: 06:30 is 120 s after 06:28)
+    spec = "clock:06:30-06:35@Europe/Paris"
+    assert main(["analyze", str(rr_file), "-w", spec]) == 2
+    err = capsys.readouterr().err
+    assert "needs the recording's absolute start time" in err
+    assert "--start" in err
+    assert main(["analyze", str(rr_file), "-w", spec, "--start", "2026-01-11T06:28:00+01:00",
+                 "--format", "json"]) == 0
+    (d,) = json.loads(capsys.readouterr().out)
+    first = rrkit.read(rr_file).beat_times_s[0]
+    assert d["start_s"] == pytest.approx(120.0, abs=2.0)
+    assert d["start_s"] >= first + 120.0 - 1e-9
+    assert d["end_s"] <= first + 420.0 + 1e-9
+    assert d["start_time"].startswith("2026-01-11T06:3")
+    # a malformed time, and a file that has its own start, are errors naming the option
+    assert main(["analyze", str(rr_file), "--start", "yesterday"]) == 2
+    assert "--start must be an ISO 8601 time; got 'yesterday'" in capsys.readouterr().err
+    stamped = tmp_path / "stamped.csv"
+    times = pd.Timestamp("2026-01-11T06:28:00+01:00") + pd.to_timedelta(
+        np.cumsum(np.full(400, 0.9)), unit="s")
+    pd.DataFrame({"timestamp": [t.isoformat() for t in times],
+                  "rr_ms": np.full(400, 900.0)}).to_csv(stamped, index=False)
+    assert main(["analyze", str(stamped), "--start", "2026-01-11T06:28:00+01:00"]) == 2
+    assert "has its own start time" in capsys.readouterr().err
+
+
+def test_cli_column_and_detector(tmp_path, capsys):
+    # --column picks the RR column of a table that auto-detection would not choose;
+    # --detector only accepts neurokit2's detector names
+    rr = simulate_rr(duration_s=400, seed=8, as_recording=False)
+    other = simulate_rr(duration_s=400, seed=9, as_recording=False)
+    n = min(rr.size, other.size)
+    path = tmp_path / "two.csv"
+    pd.DataFrame({"rr_ms": np.round(rr[:n], 2), "other_ms": np.round(other[:n], 2)}).to_csv(
+        path, index=False)
+    assert main(["analyze", str(path), "-w", "whole", "--column", "other_ms",
+                 "--format", "json"]) == 0
+    (d,) = json.loads(capsys.readouterr().out)
+    ref = rrkit.analyze(rrkit.read(path, column="other_ms"), windows="whole")
+    assert d["rmssd_ms"] == pytest.approx(ref["rmssd_ms"].iloc[0], rel=1e-12)
+    auto = rrkit.analyze(rrkit.read(path), windows="whole")
+    assert d["rmssd_ms"] != pytest.approx(auto["rmssd_ms"].iloc[0], rel=1e-6)
+    assert main(["analyze", str(path), "--detector", "no-such-detector"]) == 2
+    assert "no-such-detector" in capsys.readouterr().err
+
+
 def test_cli_csv_output_file(rr_file, tmp_path, capsys):
     out = tmp_path / "w.csv"
     code = main(["analyze", str(rr_file), "-w", "last:2m", "--psd", "ar", "--clean", "none",

@@ -22,6 +22,7 @@ import click
 
 from ..analysis import NOTE_SEPARATOR
 from ..errors import InputError
+from ..io import DEFAULT_DETECTOR, DETECTORS
 from ..windows import SYNTAX_HELP
 
 CAUTION = ("rrkit is not a medical device and makes no diagnosis. Frequent premature beats are "
@@ -79,11 +80,21 @@ def _parse_bands(items: tuple[str, ...]) -> dict[str, tuple[float, float]] | Non
               default="auto", show_default=True, help="What the files hold (see rrkit info).")
 @click.option("--unit", type=click.Choice(["auto", "ms", "s", "samples"]), default="auto",
               show_default=True, help="Unit of the values in the files.")
-@click.option("--fs", type=float, default=None, help="Sampling rate in Hz (samples, ECG).")
+@click.option("--fs", type=float, default=None, metavar="HZ",
+              help="Sampling rate in Hz (samples, ECG).")
+@click.option("--column", default=None, metavar="NAME",
+              help="Column name or 0-based index (text), or channel label (EDF, WFDB).")
+@click.option("--detector", type=click.Choice(DETECTORS), default=DEFAULT_DETECTOR,
+              show_default=True, metavar="NAME",
+              help="R-peak detector for ECG (see rrkit info --help for the choices).")
+@click.option("--start", "start_text", default=None, metavar="ISO-TIME",
+              help="Absolute time of the first beat for files that hold no timestamps, e.g. "
+                   "2026-01-11T06:28:00+01:00 (needed by clock windows); a file with its own "
+                   "start time is an error.")
 @click.option("--progress/--no-progress", default=None,
               help="Progress bar (default: on a terminal).")
-def command(files, window, clean_method, psd, bands, fmt, output, kind, unit, fs,
-            progress) -> int:
+def command(files, window, clean_method, psd, bands, fmt, output, kind, unit, fs, column,
+            detector, start_text, progress) -> int:
     """HRV metrics of each analysis window of FILE... (time, frequency, nonlinear domains).
 
     Reads each file (rrkit info shows how), corrects artifacts over the whole recording, then
@@ -114,6 +125,7 @@ def command(files, window, clean_method, psd, bands, fmt, output, kind, unit, fs
 
     spec = parse_window(window)
     band_map = _parse_bands(bands)
+    start = _parse_start(start_text)
     if fmt is None:
         suffix = output.suffix.lower() if output is not None else ""
         fmt = {".csv": "csv", ".json": "json"}.get(suffix, "table")
@@ -122,7 +134,9 @@ def command(files, window, clean_method, psd, bands, fmt, output, kind, unit, fs
     tables, failed = [], 0
     for path in _iter_files(files, progress):
         try:
-            rec = read(path, kind=kind, unit=unit, fs=fs)
+            rec = read(path, kind=kind, unit=unit, fs=fs, column=column, detector=detector)
+            if start is not None:
+                rec = _with_start(rec, start, start_text)
             tables.append(analyze(rec, windows=spec, clean=None if clean_method == "none"
                                   else clean_method, psd=psd, bands=band_map,
                                   progress=progress and len(files) == 1))
@@ -132,7 +146,7 @@ def command(files, window, clean_method, psd, bands, fmt, output, kind, unit, fs
     if not tables:
         return 2
     df = pd.concat(tables, ignore_index=True) if len(tables) > 1 else tables[0]
-    text = _render(df, fmt)
+    text = _render(df, fmt, _provenance(tables[0]))
     if output is not None:
         output.write_text(text, encoding="utf-8")
         click.echo(f"{len(df)} windows from {len(tables)} file(s) -> {output}", err=True)
@@ -152,11 +166,43 @@ def _iter_files(files, progress):
     return files
 
 
-def _render(df, fmt: str) -> str:
+def _parse_start(text: str | None):
+    """``--start``: an ISO 8601 time (a zone offset or ``Z`` makes it aware)."""
+    if text is None:
+        return None
+    from datetime import datetime
+
+    try:
+        return datetime.fromisoformat(text.strip().replace("Z", "+00:00"))
+    except ValueError:
+        raise InputError(f"--start must be an ISO 8601 time; got {text!r}",
+                         hint="for example --start 2026-01-11T06:28:00+01:00") from None
+
+
+def _with_start(rec, start, text: str):
+    if rec.start is not None:
+        raise InputError(f"the file has its own start time ({rec.start.isoformat()}); --start "
+                         f"{text} would replace it", path=rec.source,
+                         hint="leave out --start for files with timestamps")
+    return rec.replace(start=start)
+
+
+def _provenance(df) -> dict:
+    """The settings behind every number of a table (`rrkit.analyze` keeps them in attrs)."""
+    return {"rrkit_version": df.attrs.get("rrkit_version"),
+            "metrics": df.attrs.get("metrics_settings"),
+            "clean": df.attrs.get("clean_settings")}
+
+
+def _render(df, fmt: str, settings: dict | None = None) -> str:
     if fmt == "csv":
         return df.to_csv(index=False)
     if fmt == "json":
-        return json.dumps(_records(df), indent=2, allow_nan=False) + "\n"
+        records = _records(df)
+        if settings is not None:
+            for rec in records:
+                rec["settings"] = settings
+        return json.dumps(records, indent=2, allow_nan=False) + "\n"
     return _table(df)
 
 
