@@ -157,3 +157,37 @@ def test_hostile_manifest_values_stay_inside(tmp_path):
     assert daily["ln_rmssd"].notna().all()
     assert daily.loc[daily["subject"] == "'=HYPERLINK(\"http://x\")", "date"].tolist() == [
         dt.date(2026, 3, 2).isoformat()]
+
+
+def test_documented_layout_names_every_field(run):
+    """docs/hdf5-layout.md names every root attribute, every field of the fixed tables and every
+    /daily attribute the store holds; docs/daily.md names every column of the daily table (the
+    layout as written by this code is the reference)."""
+    import re
+
+    docs = Path(__file__).resolve().parents[1] / "docs"
+    layout = docs / "hdf5-layout.md"
+    columns_page = docs / "daily.md"
+    if not layout.is_file() or not columns_page.is_file():
+        pytest.skip(f"documentation not found beside the tests: {docs}")
+    text = layout.read_text(encoding="utf-8")
+    # names in backticks, and every word of the fenced blocks (the tree of the root attributes)
+    named = set(re.findall(r"`([A-Za-z_][A-Za-z0-9_]*)`", text))
+    for block in re.findall(r"```.*?\n(.*?)```", text, flags=re.S):
+        named |= set(re.findall(r"[A-Za-z_][A-Za-z0-9_]*", block))
+    _data, summary = run
+    missing = []
+    with h5py.File(summary.outputs["store"], "r") as h5:
+        missing += [f"/ attr {a}" for a in h5.attrs if a not in named]
+        missing += [f"/daily attr {a}" for a in h5["daily"].attrs if a not in named]
+        for table in ("recordings", "intervals", "corrected"):
+            missing += [f"/{table}.{f}" for f in h5[table].dtype.names if f not in named]
+        # /windows: the fixed fields up to `notes`; the metrics after it are "every other metric"
+        fields = list(h5["windows"].dtype.names)
+        missing += [f"/windows.{f}" for f in fields[:fields.index("notes") + 1]
+                    if f not in named]
+    assert missing == [], missing
+    in_daily = set(re.findall(r"`([A-Za-z_][A-Za-z0-9_]*)`",
+                              columns_page.read_text(encoding="utf-8")))
+    undocumented = [c for c in summary.table.columns if c not in in_daily]
+    assert undocumented == [], undocumented
