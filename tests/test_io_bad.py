@@ -37,7 +37,7 @@ CASES = [
     ("ragged.csv", {}, 3, "found 3 fields .*expected 2"),
     ("bad_timestamp.csv", {}, 4, "found 'yesterday' in timestamp column .*expected an ISO 8601"),
     ("timestamps_backwards.csv", {}, 4, "timestamp goes backwards by 1.195 s from line 3"),
-    ("not_edf.edf", {}, None, "cannot read as EDF"),
+    ("not_edf.edf", {}, None, r"not_edf.edf: cannot read as EDF \((?!.*not_edf)"),
     ("damaged.atr", {}, None, "cannot read the WFDB annotation file"),
 ]
 

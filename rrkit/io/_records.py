@@ -206,7 +206,9 @@ def read_edf(path: str, *, fs_hz: float | None, column, detector: str, subject: 
     try:
         reader = pyedflib.EdfReader(str(path))
     except OSError as exc:
-        raise InputError(f"cannot read as EDF ({exc}), expected an EDF/EDF+ file",
+        # pyedflib puts the path in front of its reason; the message names the file once
+        reason = str(exc).removeprefix(f"{path}:").strip() or type(exc).__name__
+        raise InputError(f"cannot read as EDF ({reason}), expected an EDF/EDF+ file",
                          path=path) from None
     try:
         labels = [str(s).strip() for s in reader.getSignalLabels()]
