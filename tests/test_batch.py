@@ -514,3 +514,19 @@ def test_pattern_recovers_what_a_name_was_made_of(subject, day, clock, compact):
             else f"{subject}_{day:%Y-%m-%d}_{clock:%H-%M-%S}.txt")
     got = FilenamePattern("{subject}_{date}[_{time}]*").match(f"any/where/{name}")
     assert got == {"subject": subject, "date": day, "time": clock}
+
+
+@pytest.mark.parametrize(("option", "value", "shown"), [
+    ("--min-days", "9", "--min-days must be in [1, 7]; got 9"),
+    ("--baseline-min", "0", "--baseline-min must be in"),
+    ("--band-sd", "-1", "--band-sd must be in"),
+    ("--from", "2026-13-01", "--from must be a date 'YYYY-MM-DD'"),
+])
+def test_daily_usage_errors_name_the_option(tmp_path, capsys, option, value, shown):
+    _write(tmp_path / "d" / "A01_2026-03-02_0700.txt", 1)
+    rc = main(["daily", str(tmp_path / "d"), "-o", str(tmp_path / "o"), option, value])
+    assert rc == 2
+    err = capsys.readouterr().err
+    assert shown in err
+    for internal in ("_days", "band_sd", "first_date"):  # the Python names stay out of it
+        assert internal not in err

@@ -154,3 +154,15 @@ def test_diagnostic_caution_wording_follows_the_evidence():
     assert "may be noise" in soft
     assert "clinician" in soft
     assert "does not diagnose" in soft
+
+
+def test_plot_command_points_a_daily_table_to_its_kinds(tmp_path, capsys):
+    from rrkit.cli import main
+
+    daily_csv = tmp_path / "daily.csv"
+    _daily().to_csv(daily_csv, index=False)
+    assert main(["plot", str(daily_csv), "-o", str(tmp_path / "d.png")]) == 2
+    err = capsys.readouterr().err
+    assert "is a daily table, not a recording" in err
+    assert "--kind trend --subject" in err
+    assert not (tmp_path / "d.png").exists()

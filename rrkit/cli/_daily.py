@@ -12,6 +12,7 @@ written); 2 a usage error.
 
 from __future__ import annotations
 
+import contextlib
 import re
 from pathlib import Path
 
@@ -100,6 +101,24 @@ def _wake(text: str) -> tuple[str, str]:
     return tuple(f"{int(t.split(':')[0]):02d}:{t.split(':')[1]}" for t in m.groups())
 
 
+#: settings names -> the options that set them, so a usage error names what the user typed
+_OPTION_OF = {"rolling_min_days": "--min-days", "week_min_days": "--min-days",
+              "baseline_days": "--baseline-days", "baseline_min_days": "--baseline-min",
+              "band_sd": "--band-sd", "first_date": "--from", "last_date": "--to"}
+
+
+@contextlib.contextmanager
+def _as_options():
+    """Re-raise an InputError about a setting under the name of its command-line option."""
+    try:
+        yield
+    except InputError as exc:
+        name = exc.message.split(" ", 1)[0]
+        if name not in _OPTION_OF or exc.path is not None:
+            raise
+        raise InputError(_OPTION_OF[name] + exc.message[len(name):], hint=exc.hint) from None
+
+
 def _command_line() -> list[str]:
     """The command as the parsed options say (for the provenance)."""
     ctx = click.get_current_context()
@@ -171,14 +190,16 @@ def command(folder, outdir, manifest, pattern, window, tz, wake, pick, clean_met
     wake_start, wake_end = _wake(wake)
     if jobs is not None and jobs < 1:
         raise InputError(f"--jobs must be at least 1; got {jobs}")
-    baselines = BaselineSettings(rolling_min_days=min_days, baseline_days=baseline_days,
-                                 baseline_min_days=baseline_min, band_sd=band_sd,
-                                 week_min_days=min(min_days, 7))
-    settings = DailySettings(window=window, tz=tz, wake_start=wake_start, wake_end=wake_end,
-                             pick=pick, clean=clean_method, baselines=baselines)
-    summary = run_daily(folder, outdir, manifest=manifest, pattern=pattern, settings=settings,
-                        jobs=jobs, progress=progress, first_date=first_date,
-                        last_date=last_date, command=_command_line())
+    with _as_options():
+        baselines = BaselineSettings(rolling_min_days=min_days, baseline_days=baseline_days,
+                                     baseline_min_days=baseline_min, band_sd=band_sd,
+                                     week_min_days=min(min_days, 7))
+        settings = DailySettings(window=window, tz=tz, wake_start=wake_start, wake_end=wake_end,
+                                 pick=pick, clean=clean_method, baselines=baselines)
+        summary = run_daily(folder, outdir, manifest=manifest, pattern=pattern,
+                            settings=settings, jobs=jobs, progress=progress,
+                            first_date=first_date, last_date=last_date,
+                            command=_command_line())
     table = summary.table
     if summary.n_files == 0:
         click.echo(f"no recordings found under {folder} (files ending in .txt, .csv, .tsv, "

@@ -47,6 +47,7 @@ def command(file: Path, kind: str, output: Path | None, window: str | None, meth
     """
     out = output or file.with_name(f"{file.name.split('.')[0]}_{kind}.png")
     if kind == "diagnostic":
+        _not_a_daily_table(file)
         _diagnostic(file, out, window=window, method=method, psd=psd, unit=unit)
     else:
         daily = _read_daily(file)
@@ -93,6 +94,19 @@ def _diagnostic(file: Path, out: Path, *, window, method, psd, unit) -> None:
                              f"({rec.duration_s:.0f} s long)")
         window_s = (found[0].start_s, found[0].end_s)
     recording_diagnostic(result, out, window_s=window_s, psd=psd)
+
+
+def _not_a_daily_table(file: Path) -> None:
+    """A daily table given to the diagnostic (the default kind) gets a pointer to --kind."""
+    try:
+        with open(file, encoding="utf-8", errors="replace") as fh:
+            header = fh.readline()
+    except OSError:
+        return  # the reader reports unreadable files
+    names = {c.strip().strip('"') for c in header.split(",")}
+    if {"subject", "date", "ln_rmssd_7d"} <= names:
+        raise InputError(f"{file} is a daily table, not a recording",
+                         hint="draw it with --kind trend --subject ID, or --kind overview")
 
 
 def _read_daily(file: Path):
