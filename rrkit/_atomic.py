@@ -5,8 +5,9 @@ the new complete file, never a partial one. Temporary files are hidden (``.<name
 the suffix `TMP_SUFFIX`; `remove_stale_temporaries` deletes those a killed run left behind. The
 final file gets the usual mode (0666 minus the umask), not the 0600 of a temporary file.
 
-This is the one implementation every writer in rrkit uses (readers' store, batch outputs, text
-files of the command line, figures); it sits at the lowest stage so any stage may import it.
+The one implementation of this in rrkit (used by the HDF5 store, `write_rr`, the batch outputs,
+the files of ``rrkit clean`` and ``rrkit agree`` and the Bland-Altman figure); it sits at the
+lowest stage so that any stage may import it.
 """
 
 from __future__ import annotations
