@@ -87,7 +87,7 @@ def _caution_line(summary) -> str:
     n_bad = summary.n_intervals - summary.counts.get("normal", 0)
     n_ect = summary.counts.get("ectopic", 0)
     if summary.quality == "flagged" and n_bad > 0 and n_ect < 0.5 * n_bad:
-        return ("caution: premature beats counted among many other artifacts (may be noise); "
+        return ("caution: premature beats counted among many other artifacts (may be noise);\n"
                 "rrkit does not diagnose, if in doubt a clinician should see this recording")
     return ("caution: frequent premature beats; rrkit does not diagnose, "
             "a clinician should see this recording")
@@ -107,7 +107,7 @@ def _tachogram(ax, result, window_s) -> None:
         if idx.size:
             ax.scatter(t[idx], raw.rr_ms[idx], s=42, color=colour, marker=marker,
                        edgecolor="white", linewidth=0.5, zorder=3,
-                       label=f"{text} ({idx.size} intervals)")
+                       label=f"{text} ({idx.size} interval{'' if idx.size == 1 else 's'})")
     if window_s is not None:
         ax.axvspan(window_s[0], window_s[1], color=OKABE_ITO["sky"], alpha=0.12, lw=0,
                    label="analysis window")
@@ -183,8 +183,7 @@ def _poincare(ax, rec, values) -> None:
                 lw=1.5)
         ax.plot([c, c + sd1 * v[0]], [c, c + sd1 * v[1]], color=OKABE_ITO["green"], lw=1.5)
         ax.text(0.03, 0.97,
-                f"SD1 {sd1:.1f} ms (short semi-axis)\nSD2 {sd2:.1f} ms (long semi-axis,\n"
-                "along the identity line)",
+                f"SD1 {sd1:.1f} ms (short semi-axis)\nSD2 {sd2:.1f} ms (long semi-axis)",
                 transform=ax.transAxes, va="top", fontsize=9,
                 bbox={"facecolor": "white", "alpha": 0.85, "lw": 0})
     if x.size:
