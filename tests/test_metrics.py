@@ -261,6 +261,31 @@ def test_two_minute_window_has_hf_and_lf_but_no_vlf():
     assert any("LF needs at least 120 s" in n for n in m.notes)
 
 
+def test_windows_of_the_task_force_lengths_get_their_bands():
+    # Task Force 1996: about 1 min for HF and 2 min for LF. The beats of a window of exactly
+    # that length span up to two intervals less (its first beat comes after its start, its
+    # last before its end), so such a window still gets the band; one clearly shorter
+    # (more than two intervals short) does not
+    rec = simulate_rr(duration_s=900, seed=6)
+    df = rrkit.analyze(rec, windows="start:30+120; start:300+60; start:500+110")
+    two_min, one_min, short = (df.iloc[k] for k in range(3))
+    assert two_min["end_s"] - two_min["start_s"] == pytest.approx(120.0)
+    span = rec.slice(two_min["start_s"], two_min["end_s"])
+    assert span.duration_s < 120.0  # the beats span less than the window
+    assert math.isfinite(two_min["lf_ms2"])
+    assert math.isfinite(two_min["hf_ms2"])
+    assert "LF needs" not in two_min["notes"]
+    assert math.isfinite(one_min["hf_ms2"])
+    assert math.isnan(one_min["lf_ms2"])
+    assert "LF needs at least 120 s" in one_min["notes"]
+    assert math.isnan(short["lf_ms2"])
+    # the same decision in a single metrics() call and in the batched many-window engine
+    single = rrkit.metrics(rrkit.clean(span).recording)
+    assert single["lf_ms2"] == pytest.approx(two_min["lf_ms2"], rel=1e-9)
+    many = rrkit.analyze(rec, windows="slide:2m")  # 7 windows of 120 s, batched
+    assert many["lf_ms2"].notna().all()
+
+
 def test_empty_and_tiny_recordings_never_crash():
     empty = rrkit.Recording(np.zeros(0), np.zeros(0))
     m = rrkit.metrics(empty)

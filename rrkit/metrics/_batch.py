@@ -31,7 +31,9 @@ from .spectral import (
     _hann,
     _onesided,
     _smoothness_factor,
+    edge_allowance_s,
     resample,
+    run_length_s,
     segment_starts,
 )
 from .time import HIST_BIN_MS
@@ -387,14 +389,16 @@ def _welch_many(fast: list[int], parts: Sequence[Recording], s: MetricsSettings,
     nfft = max(round(s.welch_segment_s * fs), 8)
     series: dict[int, list[tuple[int, np.ndarray]]] = {}
     longest: dict[int, float] = {}
+    allowance: dict[int, float] = {}
     use = []
     for i in fast:
         p = parts[i]
-        t = p.interval_times_s
-        length = float(t[-1] - t[0]) + float(p.rr_ms[0]) / 1000.0
-        if length >= s.min_hf_s:  # shorter: the per-window path writes the note
+        length = run_length_s(p.interval_times_s, p.rr_ms)
+        allow = edge_allowance_s(p.rr_ms)
+        if length + allow >= s.min_hf_s:  # shorter: the per-window path writes the note
             use.append(i)
             longest[i] = length
+            allowance[i] = allow
     if not use:
         return
     for i, x in zip(use, _resampled([parts[i] for i in use], fs), strict=True):
@@ -445,7 +449,7 @@ def _welch_many(fast: list[int], parts: Sequence[Recording], s: MetricsSettings,
             p = psd[row]
             p.flags.writeable = False
             pre[i]["estimate"] = PsdEstimate(f, p, float(df), "welch", longest[i], 1, 0,
-                                             known=known[row])
+                                             known=known[row], edge_allowance_s=allowance[i])
 
 
 def _known_values(f: np.ndarray, psd: np.ndarray, df: float, s: MetricsSettings

@@ -118,7 +118,9 @@ class MetricsSettings:
     min_hf_s, min_lf_s, min_vlf_s : float
         Shortest NN run for HF (60 s), LF (120 s) and VLF (600 s). The Task Force (1996) asks for
         about 1 min for HF and 2 min for LF and advises against VLF from recordings of 5 min or
-        less; rrkit requires 10 min for VLF (its choice).
+        less; rrkit requires 10 min for VLF (its choice). A run whose beats span up to two
+        of its (median) intervals less still counts, since that is what a window of exactly
+        the minimum length holds (`rrkit.metrics.spectral.edge_allowance_s`).
     dfa_alpha1_beats, dfa_alpha2_beats : tuple of int
         Inclusive box-size ranges in beats, (4, 16) and (16, 64) (the usual HRV convention,
         Peng et al. 1995 for the method). Every integer box size in the range is used.

@@ -90,6 +90,25 @@ class PsdEstimate:
     #: values already computed from this spectrum (the batched path of `rrkit.analyze`):
     #: ``("power", band)``, ``("peak", band)``, ``("low_peak", start, stop, halfwidth)``
     known: Any = None
+    #: `edge_allowance_s` of the longest run (s): how far it may fall short of a band minimum
+    edge_allowance_s: float = 0.0
+
+
+def edge_allowance_s(rr_ms: np.ndarray) -> float:
+    """How much shorter than its window the beats of a run may span, in s.
+
+    A window of length ``L`` holds the beats inside it: its first beat comes up to one interval
+    after the window's start and its last up to one interval before its end, so the span of the
+    beats falls short of ``L`` by up to two intervals. A run counts as lasting a band minimum
+    (60 s for HF, 120 s for LF) when its span plus twice its median interval reaches it, so that
+    a window of exactly the Task Force length (about 1 and 2 minutes) gets the band.
+    """
+    return 2.0 * float(np.median(rr_ms)) / 1000.0 if rr_ms.size else 0.0
+
+
+def run_length_s(times_s: np.ndarray, rr_ms: np.ndarray) -> float:
+    """Span of a run's beats in s: from the beat that starts its first interval to its last."""
+    return float(times_s[-1] - times_s[0]) + float(rr_ms[0]) / 1000.0
 
 
 def resample(times_s: np.ndarray, nn_ms: np.ndarray, fs_hz: float) -> np.ndarray:
@@ -262,18 +281,19 @@ _ESTIMATORS = {"welch": _welch, "lomb": _lomb, "ar": _ar}
 
 def estimate_psd(runs: list[tuple[np.ndarray, np.ndarray]], s: MetricsSettings, *,
                  method: str | None = None) -> PsdEstimate | None:
-    """PSD (ms^2/Hz) of the runs lasting at least ``s.min_hf_s``; None when none does."""
+    """PSD (ms^2/Hz) of the runs lasting at least ``s.min_hf_s`` (within `edge_allowance_s`);
+    None when none does."""
     method = method or s.psd
-    usable = [(t, rr) for t, rr in runs
-              if rr.size >= 4 and (t[-1] - t[0]) + rr[0] / 1000.0 >= s.min_hf_s]
+    usable = [(t, rr) for t, rr in runs if rr.size >= 4
+              and run_length_s(t, rr) + edge_allowance_s(rr) >= s.min_hf_s]
     if not usable:
         return None
     f, p, df = _ESTIMATORS[method](usable, s)
-    longest = max((t[-1] - t[0]) + rr[0] / 1000.0 for t, rr in usable)
+    longest_t, longest_rr = max(usable, key=lambda run: run_length_s(*run))
     f.flags.writeable = False
     p.flags.writeable = False
-    return PsdEstimate(f, p, float(df), method, float(longest), len(usable),
-                       len(runs) - len(usable))
+    return PsdEstimate(f, p, float(df), method, run_length_s(longest_t, longest_rr), len(usable),
+                       len(runs) - len(usable), edge_allowance_s=edge_allowance_s(longest_rr))
 
 
 def _band(f: np.ndarray, band: tuple[float, float]) -> slice:
@@ -374,7 +394,8 @@ def frequency_domain(runs: list[tuple[np.ndarray, np.ndarray]], s: MetricsSettin
     out["hf_ms2"] = hf
     out["ln_hf"] = math.log(hf) if hf > 0 else _NAN
     out["hf_peak_hz"] = _peak(est, b.hf)
-    has_lf = length >= s.min_lf_s
+    reach = length + est.edge_allowance_s  # see `edge_allowance_s`
+    has_lf = reach >= s.min_lf_s
     if has_lf:
         lf = band_power(est, b.lf)
         out["lf_ms2"] = lf
@@ -390,7 +411,7 @@ def frequency_domain(runs: list[tuple[np.ndarray, np.ndarray]], s: MetricsSettin
         notes.append(f"lf_ms2, ln_lf, lf_peak_hz, total_power_ms2, lf_nu, hf_nu, lf_hf: NaN, the "
                      f"longest NN run lasts {length:.1f} s; LF needs at least {s.min_lf_s:g} s "
                      f"(Task Force 1996)")
-    if length >= s.min_vlf_s:
+    if reach >= s.min_vlf_s:
         out["vlf_ms2"] = band_power(est, b.vlf)
     else:
         notes.append(f"vlf_ms2: NaN, rrkit assesses VLF from NN runs of {s.min_vlf_s:g} s or "
