@@ -343,7 +343,8 @@ def measure_recording(recording: Recording, *, settings: DailySettings | None = 
         covered = max(0.0, min(t1, req_end) - max(t0, req_start))
         if length <= 0 or covered < s.min_coverage * length:
             quality = "rejected"
-            reason = (f"the recording covers {covered:.0f} s of the {length:.0f}-s window "
+            reason = (f"the recording lasts {t1 - t0:.0f} s and covers {covered:.0f} s of the "
+                      f"{length:.0f}-s window from {req_start:g} to {req_end:g} s "
                       f"(needs {100 * s.min_coverage:.0f} %)")
         elif summ.corrected_pct > s.reject_corrected_pct:
             quality = "rejected"

@@ -4,6 +4,7 @@ from __future__ import annotations
 
 import datetime as dt
 import math
+import re
 import statistics
 
 import numpy as np
@@ -280,7 +281,10 @@ def test_daily_table_from_recordings_matches_metrics():
 def test_measure_recording_rejects_short_recording():
     rows, _ = measure_recording(simulate_rr(duration_s=100, seed=1))
     assert rows[0]["quality"] == "rejected"
-    assert "covers" in rows[0]["quality_reason"]
+    reason = rows[0]["quality_reason"]
+    # the morning window asks for 60-360 s; a 100-s recording covers about 40 s of it
+    assert re.search(r"lasts (99|100) s and covers (39|40) s of the 300-s window from 60 to "
+                     r"360 s \(needs 90 %\)", reason), reason
 
 
 def test_daily_table_points_folders_to_run_daily(tmp_path):
