@@ -283,3 +283,22 @@ def test_cli_help_documents_the_window_syntax(capsys):
     for token in ("morning", "start:60+300", "last:5m", "slide:5m/1m", "clock:04:00-07:00",
                   "events:protocol.csv", "not a medical device"):
         assert token in out
+
+
+def test_cli_csv_neutralises_formula_labels(tmp_path):
+    """Window labels come from an events table (outside text): a label that a spreadsheet would
+    run as a formula is written as text (the CSV-injection problem described by OWASP);
+    numbers stay numbers."""
+    rr = simulate_rr(duration_s=700, seed=4, as_recording=False)
+    rec_path = tmp_path / "lab.txt"
+    np.savetxt(rec_path, np.round(rr, 2), fmt="%.2f")
+    events = tmp_path / "events.csv"
+    events.write_text('label,start_s,end_s\n"=HYPERLINK(""http://x"")",0,300\n@rest,300,600\n')
+    out = tmp_path / "w.csv"
+    assert main(["analyze", str(rec_path), "-w", f"events:{events}", "-o", str(out)]) == 0
+    text = out.read_text()
+    assert ",=HYPERLINK" not in text
+    assert not any(line.startswith(("=", "@")) for line in text.splitlines())
+    df = pd.read_csv(out)
+    assert df["window"].tolist() == ["'=HYPERLINK(\"http://x\")", "'@rest"]
+    assert pd.api.types.is_float_dtype(df["rmssd_ms"])

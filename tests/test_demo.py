@@ -169,3 +169,24 @@ def test_demo_figure_names_never_leave_the_figure_folder(small_run, tmp_path):
     assert not (tmp_path / "escaped.png").exists()
     assert not list(tmp_path.glob("trend_*"))
     assert not list((tmp_path / "deep").glob("*.png"))
+
+
+def test_demo_lab_table_is_spreadsheet_safe(small_run, tmp_path):
+    """The lab step takes the subject from the file name (outside text): a name that a
+    spreadsheet would run as a formula is written as text (CSV injection, OWASP)."""
+    import shutil
+
+    from rrkit.cli._demo import _lab
+
+    _rc, data, _out = small_run
+    src = sorted((data / "lab").glob("*_events.csv"))[0]
+    rec = src.with_name(src.name.replace("_events.csv", ".csv"))
+    folder = tmp_path / "data"
+    (folder / "lab").mkdir(parents=True)
+    shutil.copy(rec, folder / "lab" / "=cmd_lab.csv")
+    shutil.copy(src, folder / "lab" / "=cmd_lab_events.csv")
+    lab = _lab(folder, tmp_path / "out")
+    assert set(lab["subject"]) == {"=cmd"}  # the table in memory keeps the value
+    written = pd.read_csv(tmp_path / "out" / "lab" / "lab_segments.csv")
+    assert set(written["subject"]) == {"'=cmd"}
+    assert pd.api.types.is_float_dtype(written["rmssd_ms"])

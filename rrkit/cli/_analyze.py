@@ -24,6 +24,7 @@ from ..analysis import NOTE_SEPARATOR
 from ..errors import InputError
 from ..io import DEFAULT_DETECTOR, DETECTORS
 from ..windows import SYNTAX_HELP
+from . import error_line
 
 CAUTION = ("rrkit is not a medical device and makes no diagnosis. Frequent premature beats are "
            "worth showing to a clinician; decisions rest with clinicians and qualified staff.")
@@ -142,7 +143,7 @@ def command(files, window, clean_method, psd, bands, fmt, output, kind, unit, fs
                                   progress=progress and len(files) == 1))
         except InputError as exc:
             failed += 1
-            click.echo(f"rrkit: error: {' '.join(str(exc).split())}", err=True)
+            click.echo(f"rrkit: error: {error_line(exc, 'analyze')}", err=True)
     if not tables:
         return 2
     df = pd.concat(tables, ignore_index=True) if len(tables) > 1 else tables[0]
@@ -196,7 +197,10 @@ def _provenance(df) -> dict:
 
 def _render(df, fmt: str, settings: dict | None = None) -> str:
     if fmt == "csv":
-        return df.to_csv(index=False)
+        from ..batch import neutralize_cells
+
+        # subject ids and window labels come from files: no text cell runs as a formula
+        return neutralize_cells(df).to_csv(index=False)
     if fmt == "json":
         records = _records(df)
         if settings is not None:

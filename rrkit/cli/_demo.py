@@ -16,6 +16,7 @@ from pathlib import Path
 
 import click
 
+from .._atomic import atomic_write_text
 from ..errors import InputError
 
 DEFAULT_OUTDIR = "rrkit-demo-output"
@@ -43,6 +44,15 @@ def find_data(given: Path | None) -> Path:
         f"the demo data folder data_samples/ was not found in {here} or its parents",
         hint="run rrkit demo from a checkout of the repository, pass --data DIR, or write the "
              "data with: python -m rrkit.simulate.squad data_samples")
+
+
+def _write_csv(path: Path, df) -> None:
+    """A CSV written whole or not at all, its text cells safe for spreadsheets (subject ids and
+    segment labels come from file names and events tables)."""
+    from ..batch import neutralize_cells
+
+    atomic_write_text(path, neutralize_cells(df).to_csv(index=False, lineterminator="\n"),
+                      fsync=False)
 
 
 class _Progress:
@@ -109,7 +119,7 @@ def command(outdir: Path, data: Path | None, jobs: int | None, quiet: bool) -> i
     prog.step(5, "summary")
     text = _summary(daily_run, lab=lab, agree=agree, ectopy=ectopy, figures=figures, out=out,
                     meta=meta, folder=folder)
-    (out / "summary.txt").write_text(text, encoding="utf-8")
+    atomic_write_text(out / "summary.txt", text, fsync=False)
     click.echo(text)
     return 0
 
@@ -142,7 +152,7 @@ def _lab(folder: Path, out: Path):
         tables.append(analyze(rec, windows=Events.from_csv(events)))
     lab = pd.concat(tables, ignore_index=True) if tables else pd.DataFrame()
     (out / "lab").mkdir(parents=True, exist_ok=True)
-    lab.to_csv(out / "lab" / "lab_segments.csv", index=False)
+    _write_csv(out / "lab" / "lab_segments.csv", lab)
     return lab
 
 
@@ -170,11 +180,11 @@ def _nights(folder: Path, out: Path, *, quiet: bool = True):
                                 progress=None if not quiet else False)
     agree_dir = out / "agreement"
     agree_dir.mkdir(parents=True, exist_ok=True)
-    search.table.to_csv(agree_dir / "definition_search.csv", index=False)
+    _write_csv(agree_dir / "definition_search.csv", search.table)
     best = search.results[search.best]
-    best.table.to_csv(agree_dir / "agreement_best.csv", index=False)
-    (agree_dir / "agreement.txt").write_text(search.summary_text() + "\n" + best.summary_text(),
-                                             encoding="utf-8")
+    _write_csv(agree_dir / "agreement_best.csv", best.table)
+    atomic_write_text(agree_dir / "agreement.txt",
+                      search.summary_text() + "\n" + best.summary_text(), fsync=False)
     return search
 
 
