@@ -111,3 +111,27 @@ def test_info_gaps_and_warning(tmp_path, capsys, rng):
     assert main(["info", str(noise), "--fs", "250"]) == 0
     assert "rrkit: warning:" in capsys.readouterr().err
     assert Path(noise).exists()
+
+
+def test_hints_name_the_command_line_options(tmp_path, capsys):
+    # the library's hints name Python keywords ("pass fs="); each command spells them as its
+    # own options, and leaves a keyword alone where the command has no such option
+    samples = tmp_path / "peaks.csv"
+    samples.write_text("sample\n0\n300\n610\n905\n1210\n1500\n")
+    assert main(["info", str(samples)]) == 2
+    err = capsys.readouterr().err
+    assert "(pass --fs, the sampling rate in Hz)" in err
+    assert "fs=" not in err
+    unclear = tmp_path / "rr.txt"
+    unclear.write_text("50\n51\n50.5\n52\n49\n")
+    assert main(["clean", str(unclear)]) == 2
+    assert "(pass --unit ms, --unit s or --unit samples with --fs)" in capsys.readouterr().err
+    assert main(["analyze", str(unclear), str(unclear)]) == 2
+    assert capsys.readouterr().err.count("--unit ms, --unit s or --unit samples with --fs") == 2
+    from rrkit import InputError
+    from rrkit.cli import error_line
+
+    exc = InputError("x (pass fs= in Hz, for example fs=250; kind='rr')")
+    assert error_line(exc, "info") == "x (pass --fs in Hz, for example --fs 250; --kind rr)"
+    assert error_line(exc, "daily") == str(exc)  # daily has neither --fs nor --kind
+    assert error_line(exc, None) == str(exc)

@@ -13,6 +13,7 @@ Console example::
 from __future__ import annotations
 
 import importlib
+import re
 import sys
 from collections.abc import Sequence
 
@@ -21,7 +22,7 @@ import click
 from .._version import __version__
 from ..errors import InputError
 
-__all__ = ["main", "cli"]
+__all__ = ["cli", "error_line", "main"]
 
 # subcommand name -> module under rrkit.cli (one module per command)
 _COMMANDS = ("info", "clean", "analyze", "daily", "agree", "plot", "demo")
@@ -82,7 +83,8 @@ def main(argv: Sequence[str] | None = None) -> int:
     except (InputError, FileNotFoundError, IsADirectoryError, PermissionError) as exc:
         if debug:
             raise
-        click.echo(f"rrkit: error: {_one_line(exc)}", err=True)
+        name = next((a for a in args if not a.startswith("-")), None)
+        click.echo(f"rrkit: error: {error_line(exc, name)}", err=True)
         return 2
     if rv is None:
         return 0
@@ -93,3 +95,29 @@ def _one_line(exc: BaseException) -> str:
     if isinstance(exc, OSError) and exc.filename is not None:
         return f"{exc.filename}: {exc.strerror or exc}"
     return " ".join(str(exc).split())
+
+
+# a library hint such as "pass unit='ms'" or "fs=250": the keyword and its optional value
+_KEYWORD_HINT = re.compile(r"\b(kind|unit|fs|column|detector)=(?:'([^']*)'|(\d+(?:\.\d+)?))?")
+
+
+def error_line(exc: BaseException, command: str | None = None) -> str:
+    """The one-line message of ``exc``, its keyword hints spelled as ``command``'s options.
+
+    The library's messages name Python keywords (``pass fs= in Hz``); on the command line the
+    same advice reads ``pass --fs in Hz``. Only keywords that ``command`` has as options are
+    rewritten.
+    """
+    text = _one_line(exc)
+    cmd = _Group._load(command) if command in _COMMANDS else None
+    if cmd is None:
+        return text
+    options = {p.name for p in cmd.params if isinstance(p, click.Option)}
+
+    def option(m: re.Match) -> str:
+        if m.group(1) not in options:
+            return m.group(0)
+        value = m.group(2) if m.group(2) is not None else m.group(3)
+        return f"--{m.group(1)}" + (f" {value}" if value else "")
+
+    return _KEYWORD_HINT.sub(option, text)

@@ -19,6 +19,7 @@ import numpy as np
 from ..errors import InputError, QualityWarning
 from ..io import DEFAULT_DETECTOR, DETECTORS, KINDS, UNITS, read
 from ..recording import Recording
+from . import error_line
 
 _LABEL_WIDTH = 11
 
@@ -132,7 +133,7 @@ def command(ctx: click.Context, files: tuple[Path, ...], kind: str, unit: str, f
         except InputError as exc:
             if debug or len(files) == 1:
                 raise
-            click.echo(f"rrkit: error: {' '.join(str(exc).split())}", err=True)
+            click.echo(f"rrkit: error: {error_line(exc, 'info')}", err=True)
             failed += 1
             continue
         click.echo(str(path))
