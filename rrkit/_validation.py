@@ -71,12 +71,15 @@ def check_int(name: str, value: Any, *, low: int | None = None, high: int | None
     return v
 
 
-def as_float_array(name: str, value: Any, *, finite: bool = True, positive: bool = False) -> np.ndarray:
+def as_float_array(
+    name: str, value: Any, *, finite: bool = True, positive: bool = False
+) -> np.ndarray:
     """Return a new 1-D float64 array, or raise `InputError` saying what is wrong and where."""
     try:
         arr = np.array(value, dtype=np.float64, copy=True)
     except (TypeError, ValueError):
-        raise InputError(f"{name} must be a 1-D array of numbers; got {type(value).__name__}") from None
+        got = type(value).__name__
+        raise InputError(f"{name} must be a 1-D array of numbers; got {got}") from None
     if arr.ndim != 1:
         raise InputError(f"{name} must be 1-D; got shape {arr.shape}")
     if finite:

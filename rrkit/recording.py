@@ -148,7 +148,8 @@ class Recording:
             bad = np.flatnonzero(dt <= 0)
             if bad.size:
                 raise InputError(
-                    f"beat_times_s must strictly increase; beat {bad[0] + 1} at {t[bad[0] + 1]!r} s "
+                    f"beat_times_s must strictly increase; beat {bad[0] + 1} at "
+                    f"{t[bad[0] + 1]!r} s "
                     f"follows {t[bad[0]]!r} s"
                 )
             as_float_array("rr_ms", rr, positive=True)
@@ -295,7 +296,7 @@ class Recording:
         return self._take(lo, hi)
 
     def slice_beats(self, first: int, stop: int) -> Recording:
-        """Beats ``first`` to ``stop - 1`` (Python slice semantics) and the intervals between them."""
+        """Beats ``first`` to ``stop - 1`` (slice semantics) and the intervals between them."""
         lo, hi, _ = slice(first, stop).indices(self.n_beats)
         return self._take(lo, hi)
 
@@ -358,7 +359,8 @@ class Recording:
             data["symbol"] = self.beat_symbols[1:]
         df = pd.DataFrame(data)
         if self.start is not None:
-            df.insert(0, "time", pd.Timestamp(self.start) + pd.to_timedelta(self.interval_times_s, unit="s"))
+            offsets = pd.to_timedelta(self.interval_times_s, unit="s")
+            df.insert(0, "time", pd.Timestamp(self.start) + offsets)
         return df
 
     def end_time(self) -> datetime | None:
@@ -382,7 +384,8 @@ class Recording:
     def __reduce__(self):
         return (_rebuild_recording, (np.array(self.beat_times_s), np.array(self.rr_ms), self.start,
                                      self.subject, self.source, self.info, np.array(self.gaps),
-                                     None if self.beat_symbols is None else np.array(self.beat_symbols)))
+                                     None if self.beat_symbols is None
+                                     else np.array(self.beat_symbols)))
 
 
 def _rebuild_recording(t, rr, start, subject, source, info, gaps, sym):

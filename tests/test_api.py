@@ -42,7 +42,8 @@ def test_public_functions_take_options_by_keyword_only():
         sig = inspect.signature(getattr(rrkit, name))
         positional = {p.name for p in sig.parameters.values()
                       if p.kind in (p.POSITIONAL_ONLY, p.POSITIONAL_OR_KEYWORD)}
-        assert positional <= allowed, f"rrkit.{name}: {sorted(positional - allowed)} should be keyword-only"
+        extra = sorted(positional - allowed)
+        assert not extra, f"rrkit.{name}: {extra} should be keyword-only"
 
 
 def test_public_callables_have_numpydoc_docstrings():

@@ -50,7 +50,10 @@ class _Group(click.Group):
         return module.command
 
 
-@click.group(cls=_Group, context_settings={"help_option_names": ["-h", "--help"], "max_content_width": 100})
+_CONTEXT = {"help_option_names": ["-h", "--help"], "max_content_width": 100}
+
+
+@click.group(cls=_Group, context_settings=_CONTEXT)
 @click.version_option(__version__, "--version", prog_name="rrkit", message="%(prog)s %(version)s")
 @click.option("--debug", is_flag=True, help="Show the full traceback when something fails.")
 @click.pass_context

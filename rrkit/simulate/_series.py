@@ -112,7 +112,8 @@ def _generate(n: int, s: RestingSeries, rng: np.random.Generator) -> np.ndarray:
     for _ in range(2):
         t = np.concatenate(([0.0], np.cumsum(rr)[:-1])) / 1000.0
         f_resp = s.resp_hz * (1.0 + np.clip(jitter, -0.2, 0.2))
-        phi_resp = phase_resp + 2 * np.pi * np.concatenate(([0.0], np.cumsum(f_resp[:-1] * np.diff(t))))
+        steps = np.cumsum(f_resp[:-1] * np.diff(t))
+        phi_resp = phase_resp + 2 * np.pi * np.concatenate(([0.0], steps))
         rr = (s.mean_rr_ms + s.resp_amp_ms * np.sin(phi_resp)
               + s.lf_amp_ms * np.sin(2 * np.pi * s.lf_hz * t + phase_lf) + drift + noise)
     return np.maximum(rr, 250.0)
