@@ -179,6 +179,7 @@ def test_cli_json_has_every_key(rr_file, capsys):
             assert k in d, k
         assert isinstance(d["notes"], list)
         assert d["vlf_ms2"] is None
+        assert type(d["n_beats"]) is int  # a count, printed as 412, not 412.0
         assert all(NOTE_SEPARATOR not in n for n in d["notes"])
     table = rrkit.analyze(rrkit.read(rr_file), windows="slide:5m")
     assert data[0]["rmssd_ms"] == pytest.approx(table["rmssd_ms"].iloc[0])

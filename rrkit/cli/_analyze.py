@@ -235,6 +235,8 @@ def _records(df) -> list[dict]:
     out = []
     for row in df.to_dict("records"):
         rec = {k: _clean_value(v) for k, v in row.items()}
+        if isinstance(rec.get("n_beats"), float) and rec["n_beats"].is_integer():
+            rec["n_beats"] = int(rec["n_beats"])  # a count (float in the table beside NaN rows)
         rec["notes"] = [n for n in (row["notes"] or "").split(NOTE_SEPARATOR) if n]
         out.append(rec)
     return out
