@@ -105,7 +105,13 @@ def test_agree_bad_input_is_one_line(night_folder, tmp_path, capsys):
                str(night_folder / "nights"), "--definition", "tiles5", "-o",
                str(tmp_path / "out")])
     assert rc == 2
-    assert "did you mean 'tiles-5min'" in capsys.readouterr().err
+    err = capsys.readouterr().err
+    assert "did you mean 'tiles-5min'" in err
+    assert "--definition must be one of" in err  # the option as typed
+    rc = main(["agree", "--reported", str(night_folder / "reported.csv"), "--recordings",
+               str(night_folder / "nights"), "--clean", "mud", "-o", str(tmp_path / "out")])
+    assert rc == 2
+    assert "--clean must be one of" in capsys.readouterr().err
 
 
 def test_plot_returns_figure_with_expected_lines(tmp_path):

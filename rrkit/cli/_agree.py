@@ -139,8 +139,15 @@ def command(ctx, reported_path, folder, outdir, metric, definition, clean_name, 
     from ..errors import InputError
 
     if not search:
-        _definition(definition)
-        _cleaning(clean_name)
+        for option, check, value in (("--definition", _definition, definition),
+                                     ("--clean", _cleaning, clean_name)):
+            try:
+                check(value)
+            except InputError as exc:  # name the option the user typed, not the argument
+                first = exc.message.split(" ", 1)
+                text = option + " " + first[1] if first[0] in ("definition", "clean") \
+                    else exc.message
+                raise InputError(text, hint=exc.hint) from None
     reported = _read_reported(reported_path, metric)
     nights, problems = _load_nights(folder, manifest, pattern, tz, reported_path)
     if not nights:
