@@ -74,3 +74,23 @@ def test_clean_user_errors(tmp_path, capsys):
     assert "magic" in capsys.readouterr().err
     assert main(["clean", str(path), "-o", str(tmp_path / "no" / "such" / "dir.csv")]) == 2
     assert "does not exist" in capsys.readouterr().err
+
+
+def test_clean_ecg_with_a_chosen_detector(tmp_path, capsys):
+    # source: neurokit2's ECG simulator (a reference library) at 65 bpm for 120 s; the command
+    # passes --detector to the reader, so its intervals are those read with that detector
+    nk = pytest.importorskip("neurokit2")
+    ecg = nk.ecg_simulate(duration=120, sampling_rate=250, heart_rate=65, random_state=3)
+    path = tmp_path / "ecg.csv"
+    np.savetxt(path, ecg, header="ecg", comments="", fmt="%.5f")
+    out = tmp_path / "beats.csv"
+    args = ["clean", str(path), "--kind", "ecg", "--fs", "250", "-o", str(out)]
+    assert main([*args, "--detector", "pantompkins1985"]) == 0
+    capsys.readouterr()
+    rec = read(path, kind="ecg", fs=250, detector="pantompkins1985")
+    assert rec.info.extra["detector"] == "pantompkins1985"
+    table = pd.read_csv(out)
+    np.testing.assert_allclose(table["rr_ms"], rec.rr_ms, rtol=0, atol=1e-6)
+    assert abs(60000 / np.median(rec.rr_ms) - 65) < 3  # the simulated heart rate
+    assert main([*args, "--detector", "no-such-detector"]) == 2
+    assert "no-such-detector" in capsys.readouterr().err

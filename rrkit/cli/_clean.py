@@ -16,7 +16,7 @@ import click
 from .._atomic import atomic_path
 from ..clean import LABELS, METHODS, STRATEGIES, CleanResult, clean
 from ..errors import InputError
-from ..io import KINDS, UNITS, read, write_rr
+from ..io import DEFAULT_DETECTOR, DETECTORS, KINDS, UNITS, read, write_rr
 
 _METHOD_NAMES = {
     "drr": "drr (Lipponen & Tarvainen 2019)",
@@ -93,16 +93,20 @@ def _write_table(result: CleanResult, dest: Path) -> None:
               help="Sampling rate in Hz, for sample indices and ECG.")
 @click.option("--column", default=None, metavar="NAME",
               help="Column name or 0-based index (text), or channel label (EDF, WFDB).")
+@click.option("--detector", type=click.Choice(DETECTORS), default=DEFAULT_DETECTOR,
+              show_default=True, metavar="NAME",
+              help="R-peak detector for ECG (see rrkit info --help for the choices).")
 def command(file: Path, method: str, strategy: str, out: Path | None, rr_out: Path | None,
             max_corrected_pct: float | None, rr_range: tuple[float, float] | None,
-            iterate: bool, kind: str, unit: str, fs: float | None, column: str | None) -> int:
+            iterate: bool, kind: str, unit: str, fs: float | None, column: str | None,
+            detector: str) -> int:
     """Label every interval of FILE (normal, ectopic, missed, extra, long, short,
     implausible), correct the artifacts and print the audit: counts, shares, longest run,
     premature beats per hour and the quality verdict.
 
     rrkit is not a medical device and makes no diagnosis.
     """
-    rec = read(file, kind=kind, unit=unit, fs=fs, column=column)
+    rec = read(file, kind=kind, unit=unit, fs=fs, column=column, detector=detector)
     lo, hi = rr_range if rr_range is not None else (None, None)
     result = clean(rec, method=method, strategy=strategy, max_corrected_pct=max_corrected_pct,
                    min_rr_ms=lo, max_rr_ms=hi, iterate=True if iterate else None)
