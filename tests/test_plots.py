@@ -166,3 +166,14 @@ def test_plot_command_points_a_daily_table_to_its_kinds(tmp_path, capsys):
     assert "is a daily table, not a recording" in err
     assert "--kind trend --subject" in err
     assert not (tmp_path / "d.png").exists()
+
+
+def test_plot_trend_of_a_foreign_table_is_one_line(tmp_path, capsys):
+    from rrkit.cli import main
+
+    other = tmp_path / "other.csv"
+    other.write_text("a,b\n1,2\n")
+    assert main(["plot", str(other), "--kind", "trend", "-o", str(tmp_path / "t.png")]) == 2
+    err = capsys.readouterr().err
+    assert "the daily table lacks the column(s) ['subject'" in err
+    assert "Traceback" not in err

@@ -56,6 +56,9 @@ def command(file: Path, kind: str, output: Path | None, window: str | None, meth
         if kind == "overview":
             squad_overview(daily, out)
         else:
+            from ..plots._trend import _check
+
+            _check(daily)  # one clear line instead of a KeyError on a table of another kind
             subjects = sorted(daily["subject"].astype(str).unique())
             if subject is None:
                 if len(subjects) != 1:
