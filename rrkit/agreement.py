@@ -518,7 +518,10 @@ def _normalise_keys(table, on, side: str):
     for col in on:
         s = table[col]
         if col == "date" or pd.api.types.is_datetime64_any_dtype(s):
-            parsed = pd.to_datetime(s.astype(str) if s.dtype == object else s, errors="coerce")
+            # ISO 8601 only: a day-first or month-first text date (03/04/2026) is refused
+            # rather than guessed
+            parsed = s if pd.api.types.is_datetime64_any_dtype(s) else pd.to_datetime(
+                s.astype(str), format="ISO8601", errors="coerce")
             bad = parsed.isna() & s.notna()
             if bad.any():
                 i = int(np.flatnonzero(bad.to_numpy())[0])

@@ -269,6 +269,21 @@ def test_tables_joined_on_subject_and_date():
     assert any("no partner" in note for note in res.notes)
 
 
+@pytest.mark.parametrize("text", ["03/04/2026", "29/03/2026", "4 March 2026"])
+def test_text_dates_must_be_iso(text):
+    # 03/04/2026 is 3 April or 4 March depending on the convention: refused, not guessed
+    rep = pd.DataFrame({"subject": ["a", "b", "c"], "date": [text, "2026-03-05", "2026-03-06"],
+                        "v": [1.0, 2.0, 3.0]})
+    ref = rep.assign(date=["2026-03-04", "2026-03-05", "2026-03-06"])
+    with pytest.raises(InputError, match=r"reported table, row 1: date .* is not a date; "
+                                         r"expected YYYY-MM-DD"):
+        agreement(rep, ref)
+    # python dates and ISO date-times are fine
+    ok = rep.assign(date=[pd.Timestamp("2026-03-04").date(), "2026-03-05T00:00:00",
+                          "2026-03-06"])
+    assert int(agreement(ok, ref).stats["n"]) == 3
+
+
 def test_duplicate_keys_rejected():
     rep = pd.DataFrame({"subject": ["a", "a"], "date": ["2026-01-05", "2026-01-05"],
                         "v": [1.0, 2.0]})
