@@ -327,8 +327,8 @@ def _fmt_s(s: float) -> str:
 def _fmt_v(v: float, unit: str) -> str:
     if v is None or not math.isfinite(v):
         return "-"
-    if unit == "x":
-        return f"{v:.1f}x"
+    if unit == "x":  # two decimals below 10x, so that 1.56x never reads as a target of 1.6x
+        return f"{v:.1f}x" if v >= 10 else f"{v:.2f}x"
     return f"{v:.3g} {unit}".strip()
 
 

@@ -21,7 +21,7 @@ HERE = Path(__file__).resolve().parent
 def _x(v: Any) -> str:
     if v is None or (isinstance(v, float) and not math.isfinite(v)):
         return "-"
-    return f"{v:.0f}x" if v >= 10 else f"{v:.1f}x"
+    return f"{v:.0f}x" if v >= 10 else f"{v:.2f}x"
 
 
 def _val(t: dict[str, Any]) -> str:
@@ -107,6 +107,12 @@ def render(doc: dict[str, Any]) -> str:
                 f"{f['rrkit_jobs2']:.0f} files/s with `--jobs 2`, neurokit2 "
                 f"{f['neurokit2']:.1f} files/s in one process (measured on a tenth of the files "
                 "and extrapolated).")
+        nps = sb["metrics"].get("nights_per_s", {})
+        if nps:
+            notes.append(
+                f"Thirty 8-hour nights through `rrkit analyze` in one process: "
+                f"{1 / nps['rrkit']:.2f} s per night, start-up included; neurokit2 "
+                f"{1 / nps['neurokit2']:.1f} s per night (two nights measured).")
     sc = cases.get("scaling")
     if sc and not sc["error"]:
         per = sc["metrics"].get("per_size", {})
@@ -115,14 +121,17 @@ def render(doc: dict[str, Any]) -> str:
             notes.append(
                 f"At 10^6 beats the pipeline takes {big['median_s']:.1f} s "
                 f"({big['us_per_beat']:.1f} µs per beat); peak resident memory "
-                f"{big['peak_rss_mb']:.0f} MB including the interpreter and imports.")
+                f"{big['peak_rss_mb']:.0f} MB including the interpreter, the imports and numba's "
+                f"compiler ({big['tracemalloc_peak_mb']:.0f} MB of it are the pipeline's own "
+                "temporaries by tracemalloc).")
     for n in notes:
         lines.append(f"- {n}")
     if notes:
         lines.append("")
     lines += [
         "Where a target is missed the table says so; `bench/README.md` explains each case, its "
-        "checks and where the time goes. To reproduce (about 10 minutes on 2 cores):",
+        f"checks and where the time goes. To reproduce ({doc['wall_s'] / 60:.0f} minutes in "
+        "this run; the suite is meant to stay under 10 minutes on 2 cores):",
         "",
         "```bash",
         "python -m bench            # every case; writes bench/results.json",
