@@ -50,32 +50,27 @@ def run_daily(files_dir: Path, manifest: Path, out_dir: Path, *, jobs: int) -> f
     """One ``rrkit daily`` run in a fresh process; returns its wall time in s."""
     if out_dir.exists():
         shutil.rmtree(out_dir)
-    cmd = [sys.executable, "-m", "rrkit", "daily", str(files_dir), "--manifest", str(manifest),
-           "--jobs", str(jobs), "-o", str(out_dir)]
-    env = dict(os.environ, PYTHONWARNINGS="ignore")
-    t0 = time.perf_counter()
-    proc = subprocess.run(cmd, capture_output=True, text=True, env=env, check=False,
-                          stdin=subprocess.DEVNULL, timeout=1800)
-    wall = time.perf_counter() - t0
-    if proc.returncode != 0:
-        raise RuntimeError(f"rrkit daily --jobs {jobs} exited {proc.returncode}: "
-                           f"{(proc.stderr or proc.stdout).strip()[-1500:]}")
-    return wall
+    return _timed_rrkit(["daily", str(files_dir), "--manifest", str(manifest),
+                         "--jobs", str(jobs), "-o", str(out_dir)], f"rrkit daily --jobs {jobs}")
 
 
 def run_analyze_nights(nights: list[Path], out_csv: Path) -> float:
     """``rrkit analyze NIGHT... --window slide:5m -o OUT.csv`` in one fresh process (one core);
     returns its wall time in s."""
-    cmd = [sys.executable, "-m", "rrkit", "analyze", *map(str, nights), "--window", "slide:5m",
-           "--clean", "drr", "--psd", "welch", "--format", "csv", "-o", str(out_csv),
-           "--no-progress"]
+    return _timed_rrkit(["analyze", *map(str, nights), "--window", "slide:5m", "--clean", "drr",
+                         "--psd", "welch", "--format", "csv", "-o", str(out_csv), "--no-progress"],
+                        "rrkit analyze (nights)")
+
+
+def _timed_rrkit(args: list[str], what: str) -> float:
+    """Run ``python -m rrkit ARGS`` in a fresh process; its wall time in s (raises on failure)."""
     env = dict(os.environ, PYTHONWARNINGS="ignore")
     t0 = time.perf_counter()
-    proc = subprocess.run(cmd, capture_output=True, text=True, env=env, check=False,
-                          stdin=subprocess.DEVNULL, timeout=1800)
+    proc = subprocess.run([sys.executable, "-m", "rrkit", *args], capture_output=True, text=True,
+                          env=env, check=False, stdin=subprocess.DEVNULL, timeout=1800)
     wall = time.perf_counter() - t0
     if proc.returncode != 0:
-        raise RuntimeError(f"rrkit analyze (nights) exited {proc.returncode}: "
+        raise RuntimeError(f"{what} exited {proc.returncode}: "
                            f"{(proc.stderr or proc.stdout).strip()[-1500:]}")
     return wall
 

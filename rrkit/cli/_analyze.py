@@ -22,9 +22,9 @@ import click
 
 from ..analysis import NOTE_SEPARATOR
 from ..errors import InputError
-from ..io import DEFAULT_DETECTOR, DETECTORS
 from ..windows import SYNTAX_HELP
 from . import error_line
+from ._options import reading_options
 
 CAUTION = ("rrkit is not a medical device and makes no diagnosis. Frequent premature beats are "
            "worth showing to a clinician; decisions rest with clinicians and qualified staff.")
@@ -77,17 +77,7 @@ def _parse_bands(items: tuple[str, ...]) -> dict[str, tuple[float, float]] | Non
               help="Output format (default: from the -o extension, else table).")
 @click.option("-o", "--output", type=click.Path(dir_okay=False, path_type=Path),
               help="Write to this file instead of the terminal.")
-@click.option("--kind", type=click.Choice(["auto", "rr", "peaks", "ecg", "annotations"]),
-              default="auto", show_default=True, help="What the files hold (see rrkit info).")
-@click.option("--unit", type=click.Choice(["auto", "ms", "s", "samples"]), default="auto",
-              show_default=True, help="Unit of the values in the files.")
-@click.option("--fs", type=float, default=None, metavar="HZ",
-              help="Sampling rate in Hz (samples, ECG).")
-@click.option("--column", default=None, metavar="NAME",
-              help="Column name or 0-based index (text), or channel label (EDF, WFDB).")
-@click.option("--detector", type=click.Choice(DETECTORS), default=DEFAULT_DETECTOR,
-              show_default=True, metavar="NAME",
-              help="R-peak detector for ECG (see rrkit info --help for the choices).")
+@reading_options
 @click.option("--start", "start_text", default=None, metavar="ISO-TIME",
               help="Absolute time of the first beat for files that hold no timestamps, e.g. "
                    "2026-01-11T06:28:00+01:00 (needed by clock windows); a file with its own "

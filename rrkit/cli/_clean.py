@@ -16,7 +16,8 @@ import click
 from .._atomic import atomic_path
 from ..clean import LABELS, METHODS, STRATEGIES, CleanResult, clean
 from ..errors import InputError
-from ..io import DEFAULT_DETECTOR, DETECTORS, KINDS, UNITS, read, write_rr
+from ..io import read, write_rr
+from ._options import reading_options
 
 _METHOD_NAMES = {
     "drr": "drr (Lipponen & Tarvainen 2019)",
@@ -85,17 +86,7 @@ def _write_table(result: CleanResult, dest: Path) -> None:
               help="Plausible intervals in ms [default: 250 2000].")
 @click.option("--iterate", is_flag=True,
               help="Detect again on the corrected series until nothing changes (bounded).")
-@click.option("--kind", type=click.Choice(KINDS), default="auto", show_default=True,
-              help="What the file holds (as for `rrkit info`).")
-@click.option("--unit", type=click.Choice(UNITS), default="auto", show_default=True,
-              help="Unit of the values (samples needs --fs).")
-@click.option("--fs", type=float, default=None, metavar="HZ",
-              help="Sampling rate in Hz, for sample indices and ECG.")
-@click.option("--column", default=None, metavar="NAME",
-              help="Column name or 0-based index (text), or channel label (EDF, WFDB).")
-@click.option("--detector", type=click.Choice(DETECTORS), default=DEFAULT_DETECTOR,
-              show_default=True, metavar="NAME",
-              help="R-peak detector for ECG (see rrkit info --help for the choices).")
+@reading_options
 def command(file: Path, method: str, strategy: str, out: Path | None, rr_out: Path | None,
             max_corrected_pct: float | None, rr_range: tuple[float, float] | None,
             iterate: bool, kind: str, unit: str, fs: float | None, column: str | None,

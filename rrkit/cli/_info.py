@@ -17,9 +17,10 @@ import click
 import numpy as np
 
 from ..errors import InputError, QualityWarning
-from ..io import DEFAULT_DETECTOR, DETECTORS, KINDS, UNITS, read
+from ..io import read
 from ..recording import Recording
 from . import error_line
+from ._options import reading_options
 
 _LABEL_WIDTH = 11
 
@@ -102,17 +103,7 @@ def describe(rec: Recording) -> list[tuple[str, str]]:
 @click.command("info")
 @click.argument("files", nargs=-1, required=True,
                 type=click.Path(dir_okay=False, path_type=Path))
-@click.option("--kind", type=click.Choice(KINDS), default="auto", show_default=True,
-              help="What the files hold: RR intervals, peak times, raw ECG or WFDB annotations.")
-@click.option("--unit", type=click.Choice(UNITS), default="auto", show_default=True,
-              help="Unit of the values (samples needs --fs).")
-@click.option("--fs", type=float, default=None, metavar="HZ",
-              help="Sampling rate in Hz, for sample indices and ECG columns in text files.")
-@click.option("--column", default=None, metavar="NAME",
-              help="Column name or 0-based index (text), or channel label (EDF, WFDB).")
-@click.option("--detector", type=click.Choice(DETECTORS), default=DEFAULT_DETECTOR,
-              show_default=True, metavar="NAME",
-              help="R-peak detector for ECG, one of neurokit2's: " + ", ".join(DETECTORS) + ".")
+@reading_options
 @click.pass_context
 def command(ctx: click.Context, files: tuple[Path, ...], kind: str, unit: str, fs: float | None,
             column: str | None, detector: str) -> int:
