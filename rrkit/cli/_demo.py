@@ -116,9 +116,12 @@ def command(outdir: Path, data: Path | None, jobs: int | None, quiet: bool) -> i
     figures = _figures(folder, out, daily_run, load=load, meta=meta, ectopy=ectopy, agree=agree,
                        note=prog.note)
 
+    report = _report(out, load=load, meta=meta)
+    prog.note(f"squad report {report}")
+
     prog.step(5, "summary")
     text = _summary(daily_run, lab=lab, agree=agree, ectopy=ectopy, figures=figures, out=out,
-                    meta=meta, folder=folder)
+                    meta=meta, folder=folder, report=report)
     atomic_write_text(out / "summary.txt", text, fsync=False)
     click.echo(text)
     return 0
@@ -264,6 +267,14 @@ def _figures(folder, out, run, *, load, meta, ectopy, agree, note):
     return written
 
 
+def _report(out: Path, *, load, meta) -> Path:
+    """The squad report page of the demo's daily run (`rrkit report` on ``out/daily``)."""
+    from ..report import write_report
+
+    return write_report(out / "daily", out / "report.html", load=load, phases=_phases(meta),
+                        title="Demo squad report (invented athletes)")
+
+
 # --------------------------------------------------------------------------------- summary
 def _since(table, subject: str) -> str | None:
     """First date of the current unbroken run of below-band days for a subject."""
@@ -295,7 +306,7 @@ def below_band_episodes(table) -> dict[str, list[tuple[str, str]]]:
     return out
 
 
-def _summary(run, *, lab, agree, ectopy, figures, out, meta, folder) -> str:
+def _summary(run, *, lab, agree, ectopy, figures, out, meta, folder, report=None) -> str:
     table = run.table
     lines = []
     lines.append("rrkit demo: the invented rowing squad (a simulation, not real people)")
@@ -387,6 +398,8 @@ def _summary(run, *, lab, agree, ectopy, figures, out, meta, folder) -> str:
         if k in run.outputs:
             lines.append(f"  {k:<12} {run.outputs[k]}")
     lines.append(f"  {'figures':<12} {out / 'figures'} ({len(figures)} PNG files)")
+    if report is not None:
+        lines.append(f"  {'report':<12} {report} (open it in a browser)")
     lines.append("")
     lines.append("rrkit is not a medical device and makes no diagnosis. Flags are prompts to "
                  "look; training decisions rest with qualified staff (docs/cautions.md).")

@@ -79,9 +79,11 @@ def resolve_columns(columns, *, where: str = "the daily table") -> dict[str, str
             missing.append(" or ".join(repr(n) for n in names))
         out[key] = found
     if missing:
-        raise InputError(f"{where} lacks the column(s) {', '.join(missing)}; expected a daily "
-                         "table as `rrkit daily` writes it",
-                         hint="make one with: rrkit daily FOLDER -o OUTDIR")
+        shown = ", ".join(missing[:3]) + (f" and {len(missing) - 3} more" if len(missing) > 3
+                                          else "")
+        raise InputError(f"{where} is not a daily table: it lacks the column(s) {shown}",
+                         hint="give the output folder of `rrkit daily`, its store.h5 or its "
+                              "daily.csv")
     return out
 
 

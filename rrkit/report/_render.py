@@ -179,7 +179,8 @@ def render_report(run: RunFiles, *, week=None, load=None, phases=None, title=Non
     """
     table, cols = run.table, run.columns
     wk = pick_week(table[cols["date"]], week)
-    rows = week_rows(table, cols, wk)
+    rows = week_rows(table, cols, wk,
+                     min_ok_days=_setting(run.settings, "baselines.rolling_min_days", 3))
     overview = overview_figure(table, week=wk, rows=rows, phases=phases)
     athletes = []
     it = rows

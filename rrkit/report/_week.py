@@ -59,6 +59,7 @@ class AthleteWeek:
     ok_days: int
     counts: dict
     cautions: tuple
+    min_ok_days: int = 3
 
     @property
     def compliance_pct(self) -> float:
@@ -75,7 +76,7 @@ class AthleteWeek:
             out.append("resting HR above band")
         if self.cautions:
             out.append("premature-beat caution")
-        if self.days and self.ok_days < 3:
+        if self.days and self.ok_days < self.min_ok_days:
             out.append("few valid mornings")
         return tuple(out)
 
@@ -149,8 +150,11 @@ def _status(value: float, low: float, high: float, below, above) -> str:
     return "inside"
 
 
-def week_rows(table, cols: dict, week: Week) -> list[AthleteWeek]:
+def week_rows(table, cols: dict, week: Week, *, min_ok_days: int = 3) -> list[AthleteWeek]:
     """One `AthleteWeek` per subject, sorted by subject.
+
+    ``min_ok_days`` is the number of valid mornings a 7-day value needs (the run's
+    ``rolling_min_days``); fewer in the week is listed as a prompt.
 
     The 7-day values, bands and flags are those of the daily table on ``week.as_of`` (the
     table decides what is below or above a band; nothing is recomputed here). Counts run over
@@ -193,5 +197,6 @@ def week_rows(table, cols: dict, week: Week) -> list[AthleteWeek]:
             hr_status=_status(hr_7d, hr_low, hr_high, get("hr_below"), get("hr_above")),
             hr_days_above=sum(_flag(v) for v in hr_above),
             days=days, ok_days=ok_days, counts=counts, cautions=cautions,
+            min_ok_days=int(min_ok_days),
         ))
     return out
