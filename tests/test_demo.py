@@ -51,6 +51,8 @@ def test_small_demo_writes_every_output(small_run):
     text = (out / "summary.txt").read_text()
     assert "simulation, not real people" in text
     assert "not a medical device" in text
+    assert (out / "report.html").is_file()  # the squad page (tests/test_report.py)
+    assert str(out / "report.html") in text
 
 
 def test_small_demo_lists_the_failed_file(small_run):

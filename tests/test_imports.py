@@ -32,6 +32,7 @@ RANK = {
     "_agreement_search": 7,
     "io.store": 7,     # the HDF5 store keeps clean results and window metrics
     "batch": 8,
+    "report": 8,       # the squad page reads a run's outputs and draws with plots
     "plots": 7,        # figures draw results of the stages before; results offer .plot()
     "simulate": 9,     # simulations sit on top: the demo squad is built with the whole pipeline
     "cli": 10,

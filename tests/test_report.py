@@ -138,7 +138,7 @@ def _csv_rows(path: Path) -> list[dict]:
 # ------------------------------------------------------------------ content
 def test_page_has_every_section_and_one_row_per_athlete(page, season):
     _path, text = page
-    out, run, _load = season
+    _out, run, _load = season
     p = Page(text)
     assert p.headings["h2"] == HEADINGS
     subjects = sorted(run.table["subject"].astype(str).unique())
@@ -196,7 +196,7 @@ def test_figures_are_embedded_pngs_with_text_alternatives(page, season):
 
 def test_failed_files_and_their_reasons_are_listed(page, season):
     _path, text = page
-    out, run, _load = season
+    out, _run, _load = season
     errors = _csv_rows(out / "errors.csv")
     assert errors, "the squad's story puts a broken file in the first weeks"
     listed = {r[0]: r for r in Page(text).tables["errors-table"]}
@@ -302,7 +302,7 @@ def test_renamed_columns_are_read_through_the_mapping(season):
     from rrkit.report._load import _normalise
     from rrkit.report._week import pick_week, week_rows
 
-    out, run, _load = season
+    out, _run, _load = season
     old = pd.read_csv(out / "daily.csv", dtype={"subject": str})
     new = old.rename(columns={"below_band": "below_swc", "above_band": "above_swc",
                               "ln_rmssd_band_low": "ln_rmssd_swc_low",
@@ -348,7 +348,8 @@ def test_cli_usage_errors_are_one_line(season, tmp_path, capsys, args, message):
     rc = main(["report", str(out), "-o", str(tmp_path / "r.html"), *args])
     err = capsys.readouterr().err
     assert rc == 2
-    assert err.startswith("rrkit: error: ") and message in err
+    assert err.startswith("rrkit: error: ")
+    assert message in err
     assert len(err.strip().splitlines()) == 1
     assert not (tmp_path / "r.html").exists()
 
@@ -401,7 +402,8 @@ def _not_blank(png: Path) -> None:
 
     img = mpimg.imread(png)
     grey = img[..., :3].mean(axis=2)
-    assert img.shape[0] >= 800 and img.shape[1] >= 1200
+    assert img.shape[0] >= 800
+    assert img.shape[1] >= 1200
     assert grey.std() > 0.05, "the screenshot is (nearly) one flat colour"
     assert (grey < 0.5).mean() > 0.005, "the screenshot has (nearly) no dark text"
 
@@ -429,7 +431,8 @@ def test_report_in_chromium(page, season, tmp_path):
             assert heads == subjects
             # every figure decoded and laid out (a broken image has no natural width)
             widths = tab.eval_on_selector_all("img", "els => els.map(e => e.naturalWidth)")
-            assert len(widths) == 1 + len(subjects) and min(widths) > 300
+            assert len(widths) == 1 + len(subjects)
+            assert min(widths) > 300
             # the optional script sorts the week table: the first heading twice -> reversed
             button = tab.locator("#week-table thead th").first.locator("button.sort")
             button.click()

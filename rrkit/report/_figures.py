@@ -56,8 +56,9 @@ def overview_figure(table, *, week, rows, phases=None) -> Embedded:
            f"{_date(week.first_date)} to {_date(week.last_date)}. Each cell shades the "
            "athlete's 7-day ln-RMSSD against their own band (the colour key beside it runs "
            "from below the band to above it; cells without a band yet are blank or grey); a "
-           f"dot marks the days flagged below the band. Below the band on {_date(week.as_of)}: {_names(below)}. The table 'The "
-           "week at a glance' gives this week's numbers as text.")
+           "dot marks the days flagged below the band. Below the band on "
+           f"{_date(week.as_of)}: {_names(below)}. The table 'The week at a glance' gives "
+           "this week's numbers as text.")
     return Embedded(png, alt)
 
 

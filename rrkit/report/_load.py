@@ -232,7 +232,8 @@ def _read_errors(path: Path):
                              path=path)
         out[key] = raw[found].astype(str)
     errors = pd.DataFrame(out)
-    errors["message"] = [_without_path(m, p) for m, p in zip(errors["message"], errors["path"])]
+    errors["message"] = [_without_path(m, p)
+                         for m, p in zip(errors["message"], errors["path"], strict=True)]
     return errors
 
 
