@@ -150,15 +150,24 @@ def _status(value: float, low: float, high: float, below, above) -> str:
     return "inside"
 
 
+def _get(row, cols: dict, key: str):
+    """The value of a report quantity in a row; NaN where the table lacks the column."""
+    return row[cols[key]] if cols.get(key) else math.nan
+
+
+def _count(row, cols: dict, key: str, fallback: int) -> int:
+    """A day count from the table, or ``fallback`` where the column is absent or empty."""
+    x = _num(_get(row, cols, key))
+    return int(x) if math.isfinite(x) else fallback
+
+
 def week_rows(table, cols: dict, week: Week, *, min_ok_days: int = 3) -> list[AthleteWeek]:
     """One `AthleteWeek` per subject, sorted by subject.
 
-    ``min_ok_days`` is the number of valid mornings a 7-day value needs (the run's
-    ``rolling_min_days``); fewer in the week is listed as a prompt.
-
     The 7-day values, bands and flags are those of the daily table on ``week.as_of`` (the
     table decides what is below or above a band; nothing is recomputed here). Counts run over
-    the week's days up to ``as_of``.
+    the week's days up to ``as_of``. ``min_ok_days`` is the number of valid mornings a 7-day
+    value needs (the run's ``rolling_min_days``); fewer in the week is listed as a prompt.
     """
     c = cols
     d = table[(table[c["date"]] >= week.monday) & (table[c["date"]] <= week.as_of)]
@@ -169,34 +178,28 @@ def week_rows(table, cols: dict, week: Week, *, min_ok_days: int = 3) -> list[At
         if last[c["date"]] != week.as_of:
             raise InputError(f"subject {subject!r} has no row for {week.as_of}",
                              hint="the daily table gives every subject every date")
-
-        def get(key, row=last):
-            return row[c[key]] if c.get(key) else math.nan
-
         q = g[c["quality"]].astype(str)
         counts = {state: int((q == state).sum()) for state in QUALITY_STATES}
-        ok_days = (int(_num(get("week_ok_days"))) if c.get("week_ok_days")
-                   and math.isfinite(_num(get("week_ok_days"))) else counts["ok"])
-        days = (int(_num(get("week_days"))) if c.get("week_days")
-                and math.isfinite(_num(get("week_days"))) else len(g))
         cautions = ()
         if c.get("caution"):
             cautions = tuple((r[c["date"]], str(r[c["caution"]]), str(r[c["quality"]]))
                              for _, r in g.iterrows() if str(r[c["caution"]]).strip())
-        below = g[c["ln_below"]]
         hr_above = g[c["hr_above"]] if c.get("hr_above") else []
-        ln_7d, ln_low, ln_high = (_num(get(k)) for k in ("ln_7d", "ln_low", "ln_high"))
-        hr_7d, hr_low, hr_high = (_num(get(k)) for k in ("hr_7d", "hr_low", "hr_high"))
+        ln_7d, ln_low, ln_high = (_num(_get(last, c, k)) for k in ("ln_7d", "ln_low", "ln_high"))
+        hr_7d, hr_low, hr_high = (_num(_get(last, c, k)) for k in ("hr_7d", "hr_low", "hr_high"))
         out.append(AthleteWeek(
             subject=str(subject),
             ln_7d=ln_7d, ln_low=ln_low, ln_high=ln_high,
-            ln_status=_status(ln_7d, ln_low, ln_high, get("ln_below"), get("ln_above")),
-            ln_days_below=sum(_flag(v) for v in below),
-            n_ok_7d=_num(get("n_ok_7d")),
+            ln_status=_status(ln_7d, ln_low, ln_high, _get(last, c, "ln_below"),
+                              _get(last, c, "ln_above")),
+            ln_days_below=sum(_flag(v) for v in g[c["ln_below"]]),
+            n_ok_7d=_num(_get(last, c, "n_ok_7d")),
             hr_7d=hr_7d, hr_low=hr_low, hr_high=hr_high,
-            hr_status=_status(hr_7d, hr_low, hr_high, get("hr_below"), get("hr_above")),
+            hr_status=_status(hr_7d, hr_low, hr_high, _get(last, c, "hr_below"),
+                              _get(last, c, "hr_above")),
             hr_days_above=sum(_flag(v) for v in hr_above),
-            days=days, ok_days=ok_days, counts=counts, cautions=cautions,
-            min_ok_days=int(min_ok_days),
+            days=_count(last, c, "week_days", len(g)),
+            ok_days=_count(last, c, "week_ok_days", counts["ok"]),
+            counts=counts, cautions=cautions, min_ok_days=int(min_ok_days),
         ))
     return out
