@@ -75,7 +75,7 @@ class AthleteWeek:
         if self.hr_status == "above":
             out.append("resting HR above band")
         if self.cautions:
-            out.append("premature-beat caution")
+            out.append("premature-beat caution: recordings for a clinician")
         if self.days and self.ok_days < self.min_ok_days:
             out.append("few valid mornings")
         return tuple(out)
