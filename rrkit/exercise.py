@@ -238,8 +238,15 @@ def _thresholds(x, y, y_smooth, axis, unit, s: RampSettings, block: int, rel: bo
         with np.errstate(invalid="ignore", divide="ignore"):
             boot = (level - b_icpt) / b_slope
         good = np.isfinite(boot) & (b_slope < 0)
-        lo, hi = (np.percentile(boot[good], [2.5, 97.5]) if good.sum() >= 0.9 * boot.size
-                  else (math.nan, math.nan))
+        # normal-approximation bootstrap interval, its SD taken robustly from the quartiles
+        # (Efron & Tibshirani 1993, ch. 13): a ratio of fitted coefficients has a skewed
+        # bootstrap distribution that leaves percentile intervals off-centre
+        if good.sum() >= 0.9 * boot.size:
+            q1, q3 = np.percentile(boot[good], [25.0, 75.0])
+            half = 1.959964 * (q3 - q1) / 1.34898
+            lo, hi = value - half, value + half
+        else:
+            lo = hi = math.nan
         row.update(value=float(value), ci_low=float(lo), ci_high=float(hi), verdict="ok")
         width = hi - lo
         limit = s.max_ci_rel * abs(value) if rel else s.max_ci_bpm
@@ -294,7 +301,8 @@ def ramp_test(
     heart rate of the test (the recovery is left out) whose alpha1 lies in ``fit_alpha``, and
     fits ``alpha1 = a + b x`` by least squares (x = mean HR, or mean load). Each level's
     crossing is ``x = (level - a) / b``; its 95% CI comes from a moving-block bootstrap with
-    blocks of one window length (overlapping windows are not independent). A crossing is
+    blocks of one window length (overlapping windows are not independent; Kuensch 1989), as
+    the estimate +/- 1.96 robust bootstrap SDs. A crossing is
     ``not found`` when alpha1 never reaches the level in the valid windows, when the line
     does not fall, or when too few windows remain: it is never extrapolated. It is
     ``uncertain`` when the CI is wider than ``max_ci_bpm`` (HR) or ``max_ci_rel`` of the
@@ -326,7 +334,7 @@ def ramp_test(
     if window is not None:
         s = RampSettings(**{**s.to_dict(), "window": window})
     text = s.window.strip()
-    spec = parse_window(text if ":" in text else f"slide:{text}")
+    spec = parse_window(f"slide:{text}" if text[:1].isdigit() else text)
     if not isinstance(spec, Sliding):
         raise InputError(f"window must be sliding windows (slide:LENGTH/STEP); got {s.window!r}",
                          hint="for example slide:2m/5s")

@@ -131,9 +131,9 @@ def read_loads(path) -> Loads:
 
     Examples
     --------
-    >>> import tempfile, os
-    >>> p = os.path.join(tempfile.mkdtemp(), "stages.csv")
-    >>> _ = open(p, "w").write("time_s,power_w\\n0,100\\n60,125\\n")
+    >>> import tempfile, pathlib
+    >>> p = pathlib.Path(tempfile.mkdtemp()) / "stages.csv"
+    >>> _ = p.write_text("time_s,power_w\\n0,100\\n60,125\\n")
     >>> read_loads(p).mean_between([0.0], [120.0]).tolist()
     [112.5]
     """
