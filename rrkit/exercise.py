@@ -138,8 +138,8 @@ class RampResult:
     ----------
     windows : pandas.DataFrame
         One row per window: ``window, start_s, end_s, mid_s, n_beats, mean_hr_bpm,
-        dfa_alpha1, artifact_beats_pct, valid, alpha1_smooth, in_fit`` and the mean load (``power_w`` or
-        ``speed_kmh``) when a load table was given.
+        dfa_alpha1, artifact_beats_pct, valid, alpha1_smooth, in_fit`` and the mean load
+        (``power_w`` or ``speed_kmh``) when a load table was given.
     thresholds : pandas.DataFrame
         One row per level and axis: ``level, axis, unit, value, ci_low, ci_high, n_windows,
         verdict, reason``.
@@ -191,7 +191,7 @@ def _boot_fits(x: np.ndarray, y: np.ndarray, block: int, n_boot: int, seed: int)
     n = x.size
     # a block of one window length, but at least five blocks so the resamples differ
     block = max(1, min(block, n // 5))
-    n_blocks = int(math.ceil(n / block))
+    n_blocks = math.ceil(n / block)
     rng = np.random.default_rng(seed)
     starts = rng.integers(0, n - block + 1, size=(n_boot, n_blocks))
     idx = (starts[:, :, None] + np.arange(block)).reshape(n_boot, -1)[:, :n]
@@ -380,7 +380,7 @@ def ramp_test(
     hr = out["mean_hr_bpm"].to_numpy()
     peak = int(np.nanargmax(np.where(valid, hr, np.nan))) if valid.any() else -1
     a = out["dfa_alpha1"].to_numpy()
-    block = max(1, int(round(spec.length_s / (spec.step_s or spec.length_s))))
+    block = max(1, round(spec.length_s / (spec.step_s or spec.length_s)))
     # the descending part is chosen on smoothed alpha1 (a running median over one window
     # length), then every valid window in it is fitted: selecting windows on their own noisy
     # alpha1 would flatten the fitted line (selection on the outcome)

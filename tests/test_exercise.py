@@ -97,7 +97,7 @@ def test_power_thresholds_from_a_stage_table():
 
 def test_artifacts_with_cleaning_stay_within_5_bpm_and_without_are_worse():
     sim = simulate_ramp(seed=4, ramp_s=1800)
-    rec, truth = inject_artifacts(sim.recording, rates=ARTIFACTS, seed=14)
+    rec, _ = inject_artifacts(sim.recording, rates=ARTIFACTS, seed=14)
     cleaned = _thresholds(ramp_test(rec, settings=FAST))
     raw = _thresholds(ramp_test(rec, clean="none", settings=FAST))
     for level, hr in sim.hr_at.items():

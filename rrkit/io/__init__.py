@@ -10,5 +10,5 @@ from ._read import KINDS, UNITS, read
 from ._wfdb_symbols import BEAT_SYMBOLS
 from ._write import write_rr
 
-__all__ = ["BEAT_SYMBOLS", "DEFAULT_DETECTOR", "DETECTORS", "KINDS", "LOAD_COLUMNS", "UNITS", "Loads",
-           "read", "read_loads", "write_rr"]
+__all__ = ["BEAT_SYMBOLS", "DEFAULT_DETECTOR", "DETECTORS", "KINDS", "LOAD_COLUMNS", "UNITS",
+           "Loads", "read", "read_loads", "write_rr"]

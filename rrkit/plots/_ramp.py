@@ -22,14 +22,15 @@ def _classes(windows, settings):
     fit = windows["in_fit"].to_numpy(bool)
     noisy = art > settings.caution_artifact_pct
     return (
-        ("fitted", fit & ~noisy, dict(marker="o", s=16, color=_INK, alpha=0.75, lw=0)),
+        ("fitted", fit & ~noisy, {"marker": "o", "s": 16, "color": _INK, "alpha": 0.75, "lw": 0}),
         (f"fitted, {settings.caution_artifact_pct:g}-{settings.max_artifact_pct:g}% artifact "
          "beats", fit & noisy,
-         dict(marker="^", s=22, facecolors="none", edgecolors=OKABE_ITO["vermillion"], lw=1.0)),
+         {"marker": "^", "s": 22, "facecolors": "none", "edgecolors": OKABE_ITO["vermillion"],
+          "lw": 1.0}),
         ("outside the descending part", valid & ~fit,
-         dict(marker="o", s=12, facecolors="none", edgecolors=_MUTED, lw=0.7)),
+         {"marker": "o", "s": 12, "facecolors": "none", "edgecolors": _MUTED, "lw": 0.7}),
         (f"left out: > {settings.max_artifact_pct:g}% artifact beats", ~valid,
-         dict(marker="x", s=14, color=OKABE_ITO["vermillion"], lw=0.8, alpha=0.6)),
+         {"marker": "x", "s": 14, "color": OKABE_ITO["vermillion"], "lw": 0.8, "alpha": 0.6}),
     )
 
 
@@ -122,11 +123,10 @@ def ramp_figure(result, path=None, *, title: str | None = None, dpi: int = 120):
                 lw=1.2, ls=(0, (1, 1)))
         unit = "W" if load_col == "power_w" else "km/h"
         cx.set_ylabel(f"{'power' if unit == 'W' else 'speed'} ({unit}), window mean")
-        h2, l2 = cx.get_legend_handles_labels()
         from matplotlib.lines import Line2D
         handles.append(Line2D([], [], color=OKABE_ITO["orange"], lw=1.2, ls=(0, (1, 1))))
         labels.append(f"{'power' if unit == 'W' else 'speed'}")
-    bx.legend(handles, labels, loc="upper left", bbox_to_anchor=(1.08, 1.0), fontsize=7.5,
+    bx.legend(handles, labels, loc="upper left", bbox_to_anchor=(1.13, 1.0), fontsize=7.5,
               frameon=False)
     fig.suptitle(title or "Exercise test: DFA alpha1 against heart rate", fontsize=11)
     if path is not None:

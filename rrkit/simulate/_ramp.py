@@ -16,6 +16,7 @@ Everything here is invented; no real person's test is described.
 
 from __future__ import annotations
 
+import math
 from dataclasses import dataclass, field
 from functools import lru_cache
 
@@ -174,7 +175,7 @@ def simulate_ramp(
     slope = 0.25 / (hr_050_bpm - hr_075_bpm)
     alpha = np.clip(0.75 - slope * (hr - hr_075_bpm), alpha_floor, alpha_ceiling)
     # calibrated against windows of the default analysis length (2 min at the ramp's mean HR)
-    seg = int(round(120.0 * (hr_075_bpm / 60.0)))
+    seg = round(120.0 * (hr_075_bpm / 60.0))
     d = _d_for_alpha(alpha, seg)
     e = rng.standard_normal(mean_rr.size + _TAPS - 1)
     w = _ma_weights(d)
@@ -183,7 +184,7 @@ def simulate_ramp(
     rr = mean_rr * (1.0 + rr_cv * x)
     rec = Recording.from_rr(rr, source="simulated ramp")
 
-    n_stages = int(np.ceil(ramp_s / stage_s))
+    n_stages = math.ceil(ramp_s / stage_s)
     stage_t = np.concatenate([[0.0], warmup_s + stage_s * np.arange(n_stages)])
     stage_p = np.concatenate([[start_power_w], start_power_w + stage_step_w * np.arange(n_stages)])
     if recovery_s > 0:
