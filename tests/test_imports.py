@@ -28,7 +28,7 @@ RANK = {
     "windows": 4,
     "metrics": 5,
     "analysis": 6,
-    "daily": 7, "agreement": 7, "_agreement_stats": 7, "_agreement_text": 7,
+    "daily": 7, "agreement": 7, "_agreement_stats": 7, "_agreement_text": 7, "exercise": 7,
     "_agreement_search": 7,
     "io.store": 7,     # the HDF5 store keeps clean results and window metrics
     "batch": 8,

@@ -25,7 +25,8 @@ from ..errors import InputError
 __all__ = ["cli", "error_line", "main"]
 
 # subcommand name -> module under rrkit.cli (one module per command)
-_COMMANDS = ("info", "clean", "analyze", "daily", "agree", "plot", "report", "demo")
+_COMMANDS = ("info", "clean", "analyze", "daily", "agree", "ramp", "plot", "report",
+             "demo")
 
 
 class _Group(click.Group):

@@ -21,7 +21,7 @@ from ..errors import InputError
 
 DEFAULT_OUTDIR = "rrkit-demo-output"
 _MARKER = "squad.json"
-_STEPS = 5
+_STEPS = 6
 
 
 def find_data(given: Path | None) -> Path:
@@ -109,7 +109,10 @@ def command(outdir: Path, data: Path | None, jobs: int | None, quiet: bool) -> i
     prog.step(3, "nights: which window definition do the wearable's values resemble?")
     agree = _nights(folder, out, quiet=quiet)
 
-    prog.step(4, "figures")
+    prog.step(4, "exercise tests: DFA alpha1 thresholds of the ramp tests")
+    ramps = _ramps(folder, out)
+
+    prog.step(5, "figures")
     load = pd.read_csv(folder / "training_load.csv") if (folder / "training_load.csv").is_file() \
         else None
     ectopy = _ectopy_by_subject(daily_run.outputs["store"])
@@ -119,9 +122,9 @@ def command(outdir: Path, data: Path | None, jobs: int | None, quiet: bool) -> i
     report = _report(out, load=load, meta=meta)
     prog.note(f"squad report {report}")
 
-    prog.step(5, "summary")
+    prog.step(6, "summary")
     text = _summary(daily_run, lab=lab, agree=agree, ectopy=ectopy, figures=figures, out=out,
-                    meta=meta, folder=folder, report=report)
+                    meta=meta, folder=folder, report=report, ramps=ramps)
     atomic_write_text(out / "summary.txt", text, fsync=False)
     click.echo(text)
     return 0
@@ -157,6 +160,44 @@ def _lab(folder: Path, out: Path):
     (out / "lab").mkdir(parents=True, exist_ok=True)
     _write_csv(out / "lab" / "lab_segments.csv", lab)
     return lab
+
+
+def _ramps(folder: Path, out: Path) -> dict:
+    """Analyse every ``ramp/<subject>_ramp.txt`` with its stage table; subject -> result."""
+    from ..exercise import ramp_test
+    from ..io import read, read_loads
+    from ._ramp import write_outputs
+
+    results = {}
+    for path in sorted((folder / "ramp").glob("*_ramp.txt")):
+        subject = path.name.removesuffix("_ramp.txt")
+        stages = path.with_name(f"{subject}_stages.csv")
+        res = ramp_test(read(path, subject=subject),
+                        loads=read_loads(stages) if stages.is_file() else None)
+        write_outputs(res, out / "ramp" / subject, title=f"Exercise test {subject} (invented)")
+        results[subject] = res
+    planted = folder / "ramp" / "planted.json"
+    truth = json.loads(planted.read_text(encoding="utf-8")) if planted.is_file() else {}
+    return {"results": results, "planted": truth}
+
+
+def _ramp_summary(ramps: dict, out: Path) -> str:
+    from ..exercise import RAMP_CAUTION
+    from ._ramp import threshold_lines
+
+    if not ramps["results"]:
+        return ""
+    lines = ["", "Exercise tests (DFA alpha1 in 2-minute windows; thresholds planted in the "
+             "simulation shown for comparison):"]
+    for subject, res in ramps["results"].items():
+        hr = ramps["planted"].get(subject, {}).get("hr_bpm", {})
+        lines.append(f"  {subject}: planted "
+                     + ", ".join(f"alpha1 {k} at {v:.0f} bpm" for k, v in sorted(hr.items(),
+                                                                                reverse=True)))
+        lines += [f"    {line.strip()}" for line in threshold_lines(res)]
+        lines.append(f"    figure and tables: {out / 'ramp' / subject}")
+    lines.append(f"  {RAMP_CAUTION}")
+    return "\n".join(lines) + "\n"
 
 
 def _nights(folder: Path, out: Path, *, quiet: bool = True):
@@ -306,7 +347,8 @@ def below_band_episodes(table) -> dict[str, list[tuple[str, str]]]:
     return out
 
 
-def _summary(run, *, lab, agree, ectopy, figures, out, meta, folder, report=None) -> str:
+def _summary(run, *, lab, agree, ectopy, figures, out, meta, folder, report=None,
+             ramps=None) -> str:
     table = run.table
     lines = []
     lines.append("rrkit demo: the invented rowing squad (a simulation, not real people)")
@@ -392,6 +434,8 @@ def _summary(run, *, lab, agree, ectopy, figures, out, meta, folder, report=None
                               & (agree.table["cleaning"] == ru[1])].iloc[0]
             lines.append(f"  next: {ru[0]!r}, SD of differences {row['sd_ratio_to_best']:.1f} "
                          "times larger")
+    if ramps:
+        lines += _ramp_summary(ramps, out).rstrip("\n").split("\n")
     lines.append("")
     lines.append(f"Outputs in {out}:")
     for k in ("daily_csv", "store", "errors_csv", "provenance"):

@@ -6,6 +6,7 @@
   and the training load;
 - `bland_altman`: differences of device-reported values against recomputed ones, with bias,
   limits of agreement and their confidence intervals (Bland & Altman 1986);
+- `ramp_figure`: an exercise test's DFA alpha1 against heart rate with the fitted crossings;
 - `squad_overview`: one row per athlete, one column per day, the 7-day mean relative to the
   band.
 
@@ -16,7 +17,8 @@ it when given a path.
 
 from ._agreement import bland_altman
 from ._diagnostic import recording_diagnostic
+from ._ramp import ramp_figure
 from ._trend import athlete_trend, band_position, squad_overview
 
-__all__ = ["athlete_trend", "band_position", "bland_altman", "recording_diagnostic",
-           "squad_overview"]
+__all__ = ["athlete_trend", "band_position", "bland_altman", "ramp_figure",
+           "recording_diagnostic", "squad_overview"]

@@ -383,6 +383,9 @@ def generate_squad(outdir, *, settings: SquadSettings | None = None, progress=No
             rec, ev = _lab(s, a)
             lab.append(_write(root, f"lab/{subject}_lab.csv", rec))
             lab.append(_write(root, f"lab/{subject}_lab_events.csv", ev))
+    from ._squad_ramps import write_ramps
+
+    lab += write_ramps(root, {story.ATHLETES[a].subject for a in range(s.n_athletes)})
     nights: list[str] = []
     if s.nights:
         from ._squad_nights import write_nights
