@@ -19,11 +19,18 @@ Rules (each recorded in `TextTable.extra`):
 - Separator: ``;`` if the data rows hold one, else tab, else ``,``, else runs of spaces, else a
   single column. A single column whose rows all look like ``812,5`` uses a decimal comma (see
   `_lone_decimal_comma`). With ``;``, tab or space separators a ``,`` inside numbers is a
-  decimal comma. Quotes around fields and a separator ending every row are dropped.
+  decimal comma; so is a ``,`` inside a quoted number of a comma-separated row
+  (``"0,0","812,5"``, as ``pandas.read_csv(decimal=",")`` reads it). A separator ending every
+  row is dropped.
+- Fields are split by the standard library's `csv.reader` (double quotes, ``""`` escapes), so
+  quotes are removed before a separator inside them could split a field; the separator is
+  chosen from the rows with their quoted parts masked. A quoted field must end on its own line
+  (line numbers stay those of the file).
 """
 
 from __future__ import annotations
 
+import csv
 import gzip
 import itertools
 import os
@@ -50,9 +57,12 @@ _ISO_RE = re.compile(
     r"^\d{4}-\d{2}-\d{2}(?:[T ]\d{2}:\d{2}(?::\d{2}(?:[.,]\d+)?)?)?(?:Z|[+-]\d{2}:?\d{2})?$")
 _DECIMAL_COMMA_RE = re.compile(r"^[+-]?\d*,\d+(?:[eE][+-]?\d+)?$")
 _TOKEN_SPLIT_RE = re.compile(r"[,;\t '\"]+")
+_QUOTED_RE = re.compile(r'"[^"]*"')
 _CONTROL_RE = re.compile(r"[\x00-\x08\x0b\x0e-\x1f\x7f]")
 
 _SEP_NAMES = {";": "semicolon", "\t": "tab", ",": "comma", None: "none (one column)", " ": "spaces"}
+# the delimiter csv.reader gets: a NUL for one column (read_text refuses text holding one)
+_CSV_DELIMITER = {None: "\x00", ",": ",", ";": ";", "\t": "\t", " ": " "}
 
 
 @dataclass(frozen=True)
@@ -160,12 +170,57 @@ def _holds_value(line: str) -> bool:
     return any(_is_value_token(t) for t in _TOKEN_SPLIT_RE.split(line) if t)
 
 
-def _split(line: str, sep: str | None) -> list[str]:
-    if sep is None:
-        return [line]
-    if sep == " ":
-        return line.split()
-    return [t.strip() for t in line.split(sep)]
+def _tokenize(rows: list[str], sep: str | None, *, path: str,
+              row_lines: np.ndarray | None = None) -> list[list[str]]:
+    """Fields of each row, split by `csv.reader` (quotes removed first), stripped of spaces.
+
+    ``sep=" "`` means runs of spaces or tabs. InputError for quoting `csv` cannot read and for
+    a quoted field that does not end on its own line (which would shift every line number).
+    """
+    if not rows:
+        return []
+    joined = "\n".join(rows)
+    if sep == " " and '"' not in joined:
+        return [r.split() for r in rows]
+    if sep == " " and "\t" in joined:
+        rows = joined.replace("\t", " ").split("\n")
+    reader = csv.reader(rows, delimiter=_CSV_DELIMITER[sep], quotechar='"', doublequote=True,
+                        skipinitialspace=True, strict=False)
+    try:
+        out = list(reader)
+    except csv.Error as exc:
+        at = reader.line_num
+        raise InputError(f"unreadable quoting ({exc}), expected quoted fields like \"812,5\"",
+                         path=path, line=_row_line(row_lines, at - 1)) from None
+    if len(out) != len(rows):  # a quote left open ran into the next line(s)
+        j = _unclosed_quote_row(rows, sep)
+        raise InputError(
+            f"a quote opened in {rows[j][:60]!r} is not closed on that line, expected each "
+            "quoted field to end on its own line", path=path, line=_row_line(row_lines, j))
+    if " " in joined or (sep != "\t" and "\t" in joined):
+        out = [[t.strip() for t in r] for r in out]
+    return out
+
+
+def _row_line(row_lines: np.ndarray | None, j: int) -> int | None:
+    if row_lines is None or not 0 <= j < row_lines.size:
+        return None
+    return int(row_lines[j])
+
+
+def _unclosed_quote_row(rows: list[str], sep: str | None) -> int:
+    """Index of the first row that `csv.reader` cannot read on its own (an open quote)."""
+    delimiter = _CSV_DELIMITER[sep]
+    for j, row in enumerate(rows):
+        reader = csv.reader([row, ""], delimiter=delimiter, skipinitialspace=True)
+        if len(list(reader)) != 2:
+            return j
+    return 0
+
+
+def _masked(rows: list[str]) -> list[str]:
+    """Rows with each quoted part replaced by ``q``, so that separators inside quotes vanish."""
+    return [_QUOTED_RE.sub("q", r) if '"' in r else r for r in rows]
 
 
 def _lone_decimal_comma(rows: list[str]) -> bool:
@@ -185,27 +240,34 @@ def _lone_decimal_comma(rows: list[str]) -> bool:
     return not (len(ints) > 2 and all(b - a == 1 for a, b in itertools.pairwise(ints)))
 
 
-def _choose_separator(rows: list[str], header: str | None) -> tuple[str | None, str]:
+def _choose_separator(rows: list[str], header: str | None, *, path: str,
+                      row_lines: np.ndarray) -> tuple[str | None, str]:
     """Separator and decimal mark from sample data rows (see the module notes)."""
+    masked = _masked(rows)
+
     def share(ch: str) -> float:
-        return sum(ch in r for r in rows) / len(rows)
+        return sum(ch in r for r in masked) / len(masked)
 
     if share(";") > 0.5:
         sep = ";"
     elif share("\t") > 0.5:
         sep = "\t"
     elif share(",") > 0.5:
-        if _lone_decimal_comma(rows) and not (header and ("," in header)):
+        masked_header = _masked([header])[0] if header else None
+        if _lone_decimal_comma(rows) and not (masked_header and ("," in masked_header)):
             return None, ","
         sep = ","
-    elif any(" " in r for r in rows):
+    elif any(" " in r for r in masked):
         sep = " "
     else:
-        return None, "."
-    tokens = [t for r in rows for t in _split(r, sep)]
-    if sep != "," and any("," in t for t in tokens if _NUMBER_RE.match(t)):
-        return sep, ","
-    return sep, "."
+        sep = None
+    return sep, _decimal_of(rows, sep, path=path, row_lines=row_lines)
+
+
+def _decimal_of(rows: list[str], sep: str | None, *, path: str, row_lines: np.ndarray) -> str:
+    """``","`` when a number among the fields holds a comma (quoted, or beside ``;``/tab)."""
+    tokens = (t for r in _tokenize(rows, sep, path=path, row_lines=row_lines) for t in r)
+    return "," if any("," in t for t in tokens if _NUMBER_RE.match(t)) else "."
 
 
 _WORD_RE = re.compile(r"[A-Za-z]{2,}")
@@ -242,11 +304,17 @@ def _first_data_row(content: list[str]) -> int:
 
 def _split_columns(data: list[str], sep: str | None, data_lines: np.ndarray,
                    path: str) -> list[list[str]]:
-    """Columns of tokens; InputError at the first row whose field count differs from row 1."""
-    if sep is None:
+    """Columns of tokens; InputError at the first row whose field count differs from row 1.
+
+    Rows with quotes go through `csv.reader`. Without a quote in the block, `csv.reader` would
+    split exactly at each separator, so the block is split by `str.split` at C speed instead.
+    """
+    joined = "\n".join(data)
+    quoted = '"' in joined
+    if sep is None and not quoted:
         return [data]
-    if sep == " ":
-        rows = [r.split() for r in data]
+    if quoted or sep == " ":
+        rows = _tokenize(data, sep, path=path, row_lines=data_lines)
         lens = np.fromiter((len(r) for r in rows), dtype=np.int64, count=len(rows))
     else:
         rows = None
@@ -259,15 +327,14 @@ def _split_columns(data: list[str], sep: str | None, data_lines: np.ndarray,
             f"found {lens[j]} fields ({data[j][:60]!r}), expected {n_fields} like line "
             f"{data_lines[0]} ({_SEP_NAMES[sep]}-separated)", path=path, line=int(data_lines[j]))
     if rows is not None:
+        if n_fields == 1:
+            return [[r[0] for r in rows]]
         return [list(c) for c in zip(*rows, strict=True)]
     # every row has n_fields fields: split the whole block at once (C speed) and deal out
-    joined = "\n".join(data)
     flat = joined.replace("\n", sep).split(sep)
     columns = [flat[k::n_fields] for k in range(n_fields)]
     if " " in joined or (sep != "\t" and "\t" in joined):
         columns = [[t.strip() for t in c] for c in columns]
-    if '"' in joined:  # quoted fields of spreadsheet exports: "812"
-        columns = [[t.strip('"').strip() for t in c] for c in columns]
     return columns
 
 
@@ -323,19 +390,14 @@ def load_table(path: str | os.PathLike[str], *, sep: str | None = None,
     data_lines = np.asarray(numbers[first:], dtype=np.int64)
     sample = data[:_SNIFF_ROWS]
     if sep is None:
-        chosen_sep, chosen_dec = _choose_separator(sample, header)
+        chosen_sep, chosen_dec = _choose_separator(sample, header, path=path_s,
+                                                   row_lines=data_lines)
     else:
         chosen_sep = None if sep in ("none", "") else sep
-        if chosen_sep is None:
-            comma = any("," in r for r in sample) and all(
-                _DECIMAL_COMMA_RE.match(r) or _NUMBER_RE.match(r) for r in sample)
-        else:
-            comma = chosen_sep != "," and any(
-                "," in t for r in sample for t in _split(r, chosen_sep) if _NUMBER_RE.match(t))
-        chosen_dec = "," if comma else "."
+        chosen_dec = _decimal_of(sample, chosen_sep, path=path_s, row_lines=data_lines)
     if decimal is not None:
         chosen_dec = decimal
-    if chosen_sep == "," and chosen_dec == ",":
+    if chosen_sep == "," and chosen_dec == "," and not any('"' in r for r in sample):
         raise InputError("a comma cannot be both the separator and the decimal mark",
                          path=path_s, hint="pass sep=';' or decimal='.'")
     columns = _split_columns(data, chosen_sep, data_lines, path_s)
@@ -347,7 +409,8 @@ def load_table(path: str | os.PathLike[str], *, sep: str | None = None,
     named = False
     n_preamble = first
     if header is not None:
-        fields = _split(header, chosen_sep) if n_fields > 1 or trailing_empty else [header]
+        fields = (_tokenize([header], chosen_sep, path=path_s)[0]
+                  if n_fields > 1 or trailing_empty else [header])
         if trailing_empty and fields and not fields[-1]:
             fields.pop()
         if len(fields) == n_fields:
