@@ -101,7 +101,11 @@ def _one_line(exc: BaseException) -> str:
 
 
 # a library hint such as "pass unit='ms'" or "fs=250": the keyword and its optional value
-_KEYWORD_HINT = re.compile(r"\b(kind|unit|fs|column|detector)=(?:'([^']*)'|(\d+(?:\.\d+)?))?")
+_KEYWORD_HINT = re.compile(
+    r"\b(kind|unit|fs|column|detector|sep|decimal|timestamp_column|break_s)="
+    r"(?:'([^']*)'|(\d+(?:\.\d+)?))?")
+# a separator as the library spells it -> its name on the command line (see cli/_options.py)
+_SEP_WORDS = {",": "comma", ";": "semicolon", "\t": "tab", "\\t": "tab", " ": "space"}
 
 
 def error_line(exc: BaseException, command: str | None = None) -> str:
@@ -121,6 +125,8 @@ def error_line(exc: BaseException, command: str | None = None) -> str:
         if m.group(1) not in options:
             return m.group(0)
         value = m.group(2) if m.group(2) is not None else m.group(3)
-        return f"--{m.group(1)}" + (f" {value}" if value else "")
+        if m.group(1) == "sep" and value:
+            value = _SEP_WORDS.get(value, value)
+        return f"--{m.group(1).replace('_', '-')}" + (f" {value}" if value else "")
 
     return _KEYWORD_HINT.sub(option, text)

@@ -17,7 +17,7 @@ from ._records import (
 )
 from ._tabular import read_table
 
-__all__ = ["KINDS", "UNITS", "read"]
+__all__ = ["DEFAULT_BREAK_S", "KINDS", "UNITS", "read"]
 
 KINDS = ("auto", "rr", "peaks", "ecg", "annotations")
 UNITS = ("auto", "ms", "s", "samples")
