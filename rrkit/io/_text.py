@@ -49,6 +49,7 @@ from typing import Any
 import numpy as np
 
 from ..errors import InputError
+from ._checks import check_regular_file
 
 __all__ = ["TextTable", "load_table", "parse_numbers", "read_text"]
 
@@ -128,10 +129,7 @@ class TextTable:
 def read_text(path: str | os.PathLike[str]) -> tuple[str, dict[str, Any]]:
     """Return the decoded text of ``path`` and how it was decoded; InputError for non-text."""
     p = Path(path)
-    if not p.exists():
-        raise InputError("file not found", path=p, hint="check the path")
-    if p.is_dir():
-        raise InputError("is a directory, expected a file", path=p)
+    check_regular_file(p)
     try:
         raw = p.read_bytes()
     except OSError as exc:
