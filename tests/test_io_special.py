@@ -74,9 +74,9 @@ def test_fifo_among_good_files_in_info(fifo, tmp_path, capsys):
 def test_wfdb_record_with_a_fifo_signal_file(tmp_path):
     (tmp_path / "rec.hea").write_text("rec 1 250 5000\nrec.dat 16 200 16 0 0 0 0 ECG\n")
     os.mkfifo(tmp_path / "rec.dat")
-    with _unblocking(tmp_path / "rec.dat"):
-        with pytest.raises(InputError, match=r"rec\.dat: is a named pipe"):
-            read(tmp_path / "rec.hea")
+    with _unblocking(tmp_path / "rec.dat"), pytest.raises(InputError,
+                                                          match=r"rec\.dat: is a named pipe"):
+        read(tmp_path / "rec.hea")
 
 
 def test_socket_and_device_are_refused(tmp_path):
