@@ -1,8 +1,10 @@
 """The ``rrkit`` command line: parsing and printing only; every command calls the library.
 
 Each subcommand lives in its own module ``rrkit/cli/_<name>.py`` exposing a click command named
-``command`` that returns an exit code. User mistakes (`rrkit.InputError`, missing files) print
-one line ``rrkit: error: ...`` and exit 2; ``--debug`` shows the traceback instead.
+``command`` that returns an exit code. Every user mistake prints one line ``rrkit: error: ...``
+and exits 2: `rrkit.InputError` from the library, and click's own checks of the command line
+(missing argument or file, unknown option, bad option value), all caught here in `main`;
+``--debug`` shows the traceback instead.
 
 Console example::
 
@@ -22,7 +24,7 @@ import click
 from .._version import __version__
 from ..errors import InputError
 
-__all__ = ["cli", "error_line", "main"]
+__all__ = ["cli", "error_line", "main", "usage_line"]
 
 # subcommand name -> module under rrkit.cli (one module per command)
 _COMMANDS = ("info", "clean", "analyze", "daily", "agree", "ramp", "plot", "report",
@@ -79,10 +81,15 @@ def main(argv: Sequence[str] | None = None) -> int:
     except click.exceptions.Abort:
         click.echo("rrkit: aborted", err=True)
         return 130
-    except click.ClickException as exc:  # usage errors: bad option, missing argument
+    except _NO_ARGS_IS_HELP as exc:  # `rrkit` alone: the overview, not an error
+        click.echo(exc.ctx.get_help() if exc.ctx is not None else cli.get_help(
+            click.Context(cli, info_name="rrkit")))
+        return 0
+    except click.ClickException as exc:  # usage errors: bad option, missing argument or file
         if debug:
             raise
-        exc.show()
+        name = next((a for a in args if not a.startswith("-")), None)
+        click.echo(f"rrkit: error: {usage_line(exc, name)}", err=True)
         return 2
     except (InputError, FileNotFoundError, IsADirectoryError, PermissionError) as exc:
         if debug:
@@ -95,6 +102,64 @@ def main(argv: Sequence[str] | None = None) -> int:
     return int(rv)
 
 
+# click >= 8.2 raises this for a group called without a command (older versions print the help)
+_NO_ARGS_IS_HELP = getattr(click.exceptions, "NoArgsIsHelpError", ())
+
+# click.Path's wording for a path that fails its checks
+_PATH_PROBLEM = re.compile(r"^(?P<kind>File|Directory|Path) (?P<path>'.*'|\S+) "
+                           r"(?P<what>does not exist|is a directory|is a file|is not readable|"
+                           r"is not writable|is not executable)\.?$", re.DOTALL)
+_KIND_WORDS = {"File": "file", "Directory": "folder", "Path": "path"}
+
+
+def _param_label(exc: click.BadParameter) -> str | None:
+    """``--kind`` or ``FILES`` for the parameter an error is about."""
+    hint = exc.param_hint
+    if hint is None and exc.param is not None:
+        hint = exc.param.get_error_hint(exc.ctx) if exc.ctx is not None else exc.param.name
+    if hint is None:
+        return None
+    if not isinstance(hint, str):
+        hint = " / ".join(hint)
+    return hint.replace("'", "").replace('"', "").rstrip(".")
+
+
+def usage_line(exc: click.ClickException, command: str | None = None) -> str:
+    """One line for a command-line mistake caught by click, in rrkit's words.
+
+    A path that fails its check reads like the reader's own errors (``x.txt: file not found``);
+    a bad value names its option (``--kind: 'zz' is not one of ...``); the line ends with where
+    to find the usage (``see 'rrkit info --help'``; ``command`` names it where click does not
+    know which command was parsed).
+    """
+    if isinstance(exc, click.MissingParameter) and exc.param is not None:
+        if isinstance(exc.param, click.Argument):
+            text = f"missing argument {exc.param.human_readable_name.rstrip('.')}"
+        else:
+            text = f"missing option {exc.param.opts[0]}"
+    elif isinstance(exc, click.BadParameter):
+        message = " ".join(exc.message.split())
+        m = _PATH_PROBLEM.match(message)
+        if m:
+            path, what = m.group("path").strip("'"), m.group("what")
+            if what == "does not exist":
+                what = f"{_KIND_WORDS[m.group('kind')]} not found"
+            text = f"{path}: {what}"
+        else:
+            label = _param_label(exc)
+            text = f"{label}: {message}" if label else message
+    else:
+        text = exc.format_message()
+    text = " ".join(text.split()).rstrip(".").replace(". Did you mean", "; did you mean")
+    if text[:1].isupper() and text[1:2].islower():
+        text = text[0].lower() + text[1:]
+    if exc.ctx is not None:
+        text += f" (see '{exc.ctx.command_path} --help')"
+    elif command in _COMMANDS:
+        text += f" (see 'rrkit {command} --help')"
+    return text
+
+
 def _one_line(exc: BaseException) -> str:
     if isinstance(exc, OSError) and exc.filename is not None:
         return f"{exc.filename}: {exc.strerror or exc}"
@@ -102,7 +167,11 @@ def _one_line(exc: BaseException) -> str:
 
 
 # a library hint such as "pass unit='ms'" or "fs=250": the keyword and its optional value
-_KEYWORD_HINT = re.compile(r"\b(kind|unit|fs|column|detector)=(?:'([^']*)'|(\d+(?:\.\d+)?))?")
+_KEYWORD_HINT = re.compile(
+    r"\b(kind|unit|fs|column|detector|sep|decimal|timestamp_column|break_s)="
+    r"(?:'([^']*)'|(\d+(?:\.\d+)?))?")
+# a separator as the library spells it -> its name on the command line (see cli/_options.py)
+_SEP_WORDS = {",": "comma", ";": "semicolon", "\t": "tab", "\\t": "tab", " ": "space"}
 
 
 def error_line(exc: BaseException, command: str | None = None) -> str:
@@ -122,6 +191,8 @@ def error_line(exc: BaseException, command: str | None = None) -> str:
         if m.group(1) not in options:
             return m.group(0)
         value = m.group(2) if m.group(2) is not None else m.group(3)
-        return f"--{m.group(1)}" + (f" {value}" if value else "")
+        if m.group(1) == "sep" and value:
+            value = _SEP_WORDS.get(value, value)
+        return f"--{m.group(1).replace('_', '-')}" + (f" {value}" if value else "")
 
     return _KEYWORD_HINT.sub(option, text)

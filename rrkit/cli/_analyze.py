@@ -84,8 +84,8 @@ def _parse_bands(items: tuple[str, ...]) -> dict[str, tuple[float, float]] | Non
                    "start time is an error.")
 @click.option("--progress/--no-progress", default=None,
               help="Progress bar (default: on a terminal).")
-def command(files, window, clean_method, psd, bands, fmt, output, kind, unit, fs, column,
-            detector, start_text, progress) -> int:
+def command(files, window, clean_method, psd, bands, fmt, output, reading, start_text,
+            progress) -> int:
     """HRV metrics of each analysis window of FILE... (time, frequency, nonlinear domains).
 
     Reads each file (rrkit info shows how), corrects artifacts over the whole recording, then
@@ -125,7 +125,7 @@ def command(files, window, clean_method, psd, bands, fmt, output, kind, unit, fs
     tables, failed = [], 0
     for path in _iter_files(files, progress):
         try:
-            rec = read(path, kind=kind, unit=unit, fs=fs, column=column, detector=detector)
+            rec = read(path, **reading)
             if start is not None:
                 rec = _with_start(rec, start, start_text)
             tables.append(analyze(rec, windows=spec, clean=None if clean_method == "none"

@@ -89,15 +89,14 @@ def _write_table(result: CleanResult, dest: Path) -> None:
 @reading_options
 def command(file: Path, method: str, strategy: str, out: Path | None, rr_out: Path | None,
             max_corrected_pct: float | None, rr_range: tuple[float, float] | None,
-            iterate: bool, kind: str, unit: str, fs: float | None, column: str | None,
-            detector: str) -> int:
+            iterate: bool, reading: dict) -> int:
     """Label every interval of FILE (normal, ectopic, missed, extra, long, short,
     implausible), correct the artifacts and print the audit: counts, shares, longest run,
     premature beats per hour and the quality verdict.
 
     rrkit is not a medical device and makes no diagnosis.
     """
-    rec = read(file, kind=kind, unit=unit, fs=fs, column=column, detector=detector)
+    rec = read(file, **reading)
     lo, hi = rr_range if rr_range is not None else (None, None)
     result = clean(rec, method=method, strategy=strategy, max_corrected_pct=max_corrected_pct,
                    min_rr_ms=lo, max_rr_ms=hi, iterate=True if iterate else None)

@@ -105,8 +105,7 @@ def describe(rec: Recording) -> list[tuple[str, str]]:
                 type=click.Path(dir_okay=False, path_type=Path))
 @reading_options
 @click.pass_context
-def command(ctx: click.Context, files: tuple[Path, ...], kind: str, unit: str, fs: float | None,
-            column: str | None, detector: str) -> int:
+def command(ctx: click.Context, files: tuple[Path, ...], reading: dict) -> int:
     """Show what each FILE holds and how rrkit read it: kind, unit and how each was decided,
     beats, duration, start, heart-rate range, gaps and (for ECG) the detection quality.
 
@@ -120,7 +119,7 @@ def command(ctx: click.Context, files: tuple[Path, ...], kind: str, unit: str, f
         try:
             with warnings.catch_warnings(record=True) as caught:
                 warnings.simplefilter("always", QualityWarning)
-                rec = read(path, kind=kind, unit=unit, fs=fs, column=column, detector=detector)
+                rec = read(path, **reading)
         except InputError as exc:
             if debug or len(files) == 1:
                 raise

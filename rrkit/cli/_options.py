@@ -1,17 +1,48 @@
 """Options shared by the commands that read a recording (info, clean, analyze).
 
-One decorator, so that ``--kind``, ``--unit``, ``--fs``, ``--column`` and ``--detector`` read
-the same, with the same defaults, in every command; each maps onto `rrkit.read`'s argument of
-the same name.
+One decorator, so that the reader options read the same, with the same defaults, in every
+command. Each maps onto `rrkit.read`'s argument of the same name (``--break-s`` is ``break_s``,
+``--timestamp-column`` is ``timestamp_column``) and the command receives them together as one
+keyword argument ``reading``, a dict to pass on as ``read(path, **reading)``.
 """
 
 from __future__ import annotations
 
+import functools
+
 import click
 
-from ..io import DEFAULT_DETECTOR, DETECTORS, KINDS, UNITS
+from ..io import DEFAULT_BREAK_S, DEFAULT_DETECTOR, DETECTORS, KINDS, UNITS
 
-__all__ = ["reading_options"]
+__all__ = ["READ_KEYS", "SEPARATOR_NAMES", "reading_options"]
+
+#: separator names on the command line -> `rrkit.read`'s ``sep`` (None: found from the data)
+SEPARATOR_NAMES = {"auto": None, "comma": ",", "semicolon": ";", "tab": "\t", "space": " ",
+                   "none": "none"}
+
+
+def _separator(ctx, param, value):
+    return SEPARATOR_NAMES[value]
+
+
+def _auto_none(ctx, param, value):
+    return None if value == "auto" else value
+
+
+def _break_s(ctx, param, value):
+    if value is None or isinstance(value, float):
+        return value
+    text = str(value).strip().lower()
+    if text in ("none", "off"):
+        return None
+    try:
+        seconds = float(text)
+    except ValueError:
+        seconds = float("nan")
+    if not seconds > 0 or seconds == float("inf"):
+        raise click.BadParameter(f"expected seconds > 0 or 'none', got {value!r}")
+    return seconds
+
 
 _OPTIONS = (
     click.option("--kind", type=click.Choice(KINDS), default="auto", show_default=True,
@@ -27,11 +58,33 @@ _OPTIONS = (
                  show_default=True, metavar="NAME",
                  help="R-peak detector for ECG, one of neurokit2's: "
                       + ", ".join(DETECTORS) + "."),
+    click.option("--sep", type=click.Choice(tuple(SEPARATOR_NAMES)), default="auto",
+                 show_default=True, callback=_separator,
+                 help="Separator of a text table (space: runs of spaces; none: one column)."),
+    click.option("--decimal", type=click.Choice(("auto", ".", ",")), default="auto",
+                 show_default=True, callback=_auto_none,
+                 help="Decimal mark of a text table."),
+    click.option("--timestamp-column", default=None, metavar="NAME",
+                 help="Column of ISO 8601 times or Unix epoch numbers (default: found by "
+                      "content)."),
+    click.option("--break-s", type=str, default=DEFAULT_BREAK_S, show_default=True,
+                 callback=_break_s, metavar="SECONDS",
+                 help="With timestamps beside RR intervals, uncovered time longer than this "
+                      "is a recording break (kept as a gap); 'none' turns it off."),
 )
+
+#: the keyword arguments of `rrkit.read` that the options above give
+READ_KEYS = ("kind", "unit", "fs", "column", "detector", "sep", "decimal", "timestamp_column",
+             "break_s")
 
 
 def reading_options(command):
-    """Add the reader options to a click command (they arrive as keyword arguments)."""
+    """Add the reader options to a click command; they arrive as one dict ``reading``."""
+    @functools.wraps(command)
+    def gathered(*args, **kwargs):
+        reading = {key: kwargs.pop(key) for key in READ_KEYS}
+        return command(*args, reading=reading, **kwargs)
+
     for option in reversed(_OPTIONS):
-        command = option(command)
-    return command
+        gathered = option(gathered)
+    return gathered

@@ -6,11 +6,14 @@ file) with what was found and what was expected.
 
 from __future__ import annotations
 
+import os
+import stat
+
 import numpy as np
 
 from ..errors import InputError
 
-__all__ = ["MIN_INTERVALS", "check_enough", "peaks_to_seconds", "rr_to_ms"]
+__all__ = ["MIN_INTERVALS", "check_enough", "check_regular_file", "peaks_to_seconds", "rr_to_ms"]
 
 #: fewest intervals a reader accepts: with fewer there is not even one successive difference
 #: pair to analyse (RMSSD needs two intervals, a spectrum far more)
@@ -74,3 +77,29 @@ def check_enough(n_intervals: int, *, path: str, what: str) -> None:
         raise InputError(
             f"found {n_intervals} interval{'s' if n_intervals != 1 else ''} ({what}), expected "
             f"at least {MIN_INTERVALS} for any analysis (too few beats)", path=path)
+
+
+_SPECIAL_KINDS = ((stat.S_ISFIFO, "a named pipe (FIFO)"), (stat.S_ISSOCK, "a socket"),
+                  (stat.S_ISCHR, "a character device"), (stat.S_ISBLK, "a block device"))
+
+
+def check_regular_file(path: str | os.PathLike[str]) -> None:
+    """InputError unless ``path`` is a regular file (or a link to one).
+
+    Only `os.stat` is used, which never opens the file: opening a named pipe blocks until some
+    other process writes to it, and a device can stream without end, so these are refused
+    before any read.
+    """
+    try:
+        mode = os.stat(path).st_mode
+    except FileNotFoundError:
+        raise InputError("file not found", path=path, hint="check the path") from None
+    except OSError as exc:
+        raise InputError(f"cannot read the file ({exc.strerror or exc})", path=path) from None
+    if stat.S_ISREG(mode):
+        return
+    if stat.S_ISDIR(mode):
+        raise InputError("is a directory, expected a file", path=path)
+    what = next((name for test, name in _SPECIAL_KINDS if test(mode)), "a special file")
+    raise InputError(f"is {what}, not a regular file; rrkit reads only regular files",
+                     path=path, hint="save the data to a file first")

@@ -25,6 +25,7 @@ __all__ = [
     "decide_kind",
     "decide_peak_unit",
     "decide_rr_unit",
+    "is_ecg_lead",
     "name_hints",
 ]
 
@@ -41,6 +42,13 @@ _PEAK_WORDS = {"peak", "peaks", "rpeak", "rpeaks", "beat", "beats", "time", "tim
                "sample", "samples", "index", "idx", "onset"}
 _ECG_WORDS = {"ecg", "ekg", "mlii", "mli", "mliii", "lead", "ii", "iii", "avr", "avl", "avf",
               "v1", "v2", "v3", "v4", "v5", "v6", "signal", "voltage", "mv", "uv"}
+# ECG lead names, matched word by word: limb and augmented leads (II, III, aVR, aVL, aVF;
+# a bare "I" only as a channel label, see `is_ecg_lead`), chest leads V1-V9 and right-sided
+# V3R-V6R, modified chest leads MCL1-MCL6, Holter bipolar leads CM1-CM6 and CC5, modified limb
+# leads MLI-MLIII / ML1-ML3, and any word starting with ECG or EKG (common practice in the
+# signal labels of WFDB and EDF files)
+_LEAD_RE = re.compile(r"(?:i{2,3}|av[rlf]|v[1-9]r?|mcl[1-6]|cm[1-6]|cc5|ml(?:i{1,3}|[1-3])|"
+                      r"ecg\w*|ekg\w*)")
 _TS_WORDS = {"timestamp", "timestamps", "datetime", "date", "epoch", "unix", "clock",
              "utc", "localtime", "wallclock"}
 _SYMBOL_WORDS = {"symbol", "symbols", "label", "labels", "annotation", "annotations", "type",
@@ -54,6 +62,15 @@ def _words(name: str) -> list[str]:
     return [w for w in re.split(r"[^a-z0-9]+", name.lower()) if w]
 
 
+def is_ecg_lead(label: str) -> bool:
+    """True when a signal's label names an ECG lead (case-insensitive; see ``_LEAD_RE``).
+
+    Channel labels of EDF and WFDB records are always signals, so a bare ``I`` (Einthoven lead
+    I) counts here, while a text column named ``i`` stays an index.
+    """
+    return label.strip().lower() == "i" or name_hints(label)["role"] == "ecg"
+
+
 def name_hints(name: str) -> dict[str, str | None]:
     """What a column name suggests: ``role`` (rr, peaks, ecg, timestamp, symbol) and ``unit``."""
     words = _words(name)
@@ -63,7 +80,7 @@ def name_hints(name: str) -> dict[str, str | None]:
         role = "timestamp"
     elif ws & _RR_WORDS:
         role = "rr"
-    elif ws & _ECG_WORDS or any(w.startswith(("ecg", "ekg")) for w in ws):
+    elif ws & _ECG_WORDS or any(_LEAD_RE.fullmatch(w) for w in ws):
         role = "ecg"
     elif ws & _SYMBOL_WORDS:
         role = "symbol"

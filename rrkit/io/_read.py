@@ -8,6 +8,7 @@ from pathlib import Path
 from .._validation import check_option, check_range
 from ..errors import InputError
 from ..recording import Recording
+from ._checks import check_regular_file
 from ._ecg import DEFAULT_DETECTOR, DETECTORS
 from ._records import (
     WFDB_ANNOTATION_EXTENSIONS,
@@ -17,7 +18,7 @@ from ._records import (
 )
 from ._tabular import read_table
 
-__all__ = ["KINDS", "UNITS", "read"]
+__all__ = ["DEFAULT_BREAK_S", "KINDS", "UNITS", "read"]
 
 KINDS = ("auto", "rr", "peaks", "ecg", "annotations")
 UNITS = ("auto", "ms", "s", "samples")
@@ -143,10 +144,13 @@ def read(
     decimal = check_option("decimal", decimal, (None, ".", ","))
     p = Path(os.fspath(path))
     fmt = _format_of(p)
-    if fmt != "wfdb" and not p.exists():
-        raise InputError("file not found", path=p, hint="check the path")
-    if fmt != "wfdb" and p.is_dir():
-        raise InputError("is a directory, expected a file", path=p)
+    if fmt != "wfdb":
+        check_regular_file(p)
+    else:  # the header and signal files of the record, where they exist
+        for part in (p.with_suffix(".hea"), p.with_suffix(".dat")) if p.suffix else (
+                Path(str(p) + ".hea"), Path(str(p) + ".dat")):
+            if os.path.lexists(part):
+                check_regular_file(part)
     src = str(p)
     if kind == "annotations" or (kind == "auto" and fmt == "annotations"):
         if fmt == "text" and p.suffix:

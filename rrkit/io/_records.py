@@ -23,7 +23,7 @@ import numpy as np
 from ..errors import InputError
 from ..recording import ReadInfo, Recording
 from ._checks import check_enough
-from ._detect import name_hints
+from ._detect import is_ecg_lead
 from ._ecg import recording_from_signal
 from ._wfdb_symbols import BEAT_SYMBOLS
 
@@ -79,7 +79,7 @@ def _pick_channel(labels: list[str], column, path: str) -> int:
         raise InputError(f"column={column!r} is not a channel of this record; channels: "
                          f"{labels}", path=path)
     for k, lab in enumerate(labels):
-        if name_hints(lab)["role"] == "ecg":
+        if is_ecg_lead(lab):
             return k
     if len(labels) == 1:
         return 0

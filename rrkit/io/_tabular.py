@@ -56,7 +56,7 @@ def _resolve_column(table: TextTable, column: str | int, *, what: str) -> int:
 
 
 def _sniff_numbers(table: TextTable, col: int) -> np.ndarray | None:
-    toks = table.columns[col][:200]
+    toks = table.head[col]
     if table.decimal == ",":
         toks = [t.replace(",", ".") for t in toks]
     try:
@@ -137,9 +137,13 @@ def _choose_value_column(table, lay, *, kind, column, fs_hz) -> tuple[int | None
 
 def read_table(path: str, *, kind: str, unit: str, fs_hz: float | None, column,
                timestamp_column, subject: str | None, break_s: float | None,
-               sep: str | None, decimal: str | None, detector: str) -> Recording:
-    """Read a text table as RR intervals, peak times or an ECG column (see the module notes)."""
-    table = load_table(path, sep=sep, decimal=decimal)
+               sep: str | None, decimal: str | None, detector: str,
+               fast: bool | None = None) -> Recording:
+    """Read a text table as RR intervals, peak times or an ECG column (see the module notes).
+
+    ``fast`` is passed to `load_table` (tests compare both paths with it).
+    """
+    table = load_table(path, sep=sep, decimal=decimal, fast=fast)
     lay = _layout(table, timestamp_column)
     col, named_kind, col_why = _choose_value_column(table, lay, kind=kind, column=column,
                                                     fs_hz=fs_hz)
