@@ -90,8 +90,7 @@ def write_outputs(result, outdir: Path, *, title: str | None = None) -> dict[str
               help="Write windows.csv, thresholds.csv, settings.json and ramp.png here.")
 @reading_options
 def command(file: Path, stages: Path | None, window: str, levels: str, max_artifact_pct: float,
-            clean_method: str, outdir: Path | None, kind: str, unit: str, fs: float | None,
-            column: str | None, detector: str) -> int:
+            clean_method: str, outdir: Path | None, reading: dict) -> int:
     """Follow DFA alpha1 through the incremental exercise test in FILE (RR intervals, peak
     times or ECG) and report the heart rate, and the power or speed with --stages, at which
     alpha1 crosses each level, with a bootstrap 95% CI and a verdict (ok, uncertain, not
@@ -100,7 +99,7 @@ def command(file: Path, stages: Path | None, window: str, levels: str, max_artif
     This is an estimate for training prescription, not a diagnostic test; rrkit is not a
     medical device. Exercise testing follows local safety practice.
     """
-    rec = read(file, kind=kind, unit=unit, fs=fs, column=column, detector=detector)
+    rec = read(file, **reading)
     loads = read_loads(stages) if stages is not None else None
     settings = RampSettings(window=window, levels=_levels(levels),
                             max_artifact_pct=max_artifact_pct,
