@@ -4,8 +4,10 @@ Everything here is a simulation with a known ground truth; none of it describes 
 """
 
 from ._artifacts import ARTIFACT_CLASSES, ArtifactTruth, inject_artifacts
+from ._device import DeviceTruth, simulate_device
 from ._night import NightSettings, simulate_night, simulate_wearable_reports
 from ._series import RestingSeries, simulate_rr
 
-__all__ = ["ARTIFACT_CLASSES", "ArtifactTruth", "NightSettings", "RestingSeries",
-           "inject_artifacts", "simulate_night", "simulate_rr", "simulate_wearable_reports"]
+__all__ = ["ARTIFACT_CLASSES", "ArtifactTruth", "DeviceTruth", "NightSettings", "RestingSeries",
+           "inject_artifacts", "simulate_device", "simulate_night", "simulate_rr",
+           "simulate_wearable_reports"]
