@@ -30,6 +30,7 @@ RANK = {
     "analysis": 6,
     "daily": 7, "agreement": 7, "_agreement_stats": 7, "_agreement_text": 7,
     "_agreement_search": 7,
+    "pairing": 7,      # simultaneous recordings: analysis and agreement on two recordings
     "io.store": 7,     # the HDF5 store keeps clean results and window metrics
     "batch": 8,
     "plots": 7,        # figures draw results of the stages before; results offer .plot()
