@@ -7,6 +7,8 @@ the same name.
 
 from __future__ import annotations
 
+import re
+
 import click
 
 from ..io import DEFAULT_DETECTOR, DETECTORS, KINDS, PPG_DETECTORS, UNITS
@@ -57,15 +59,20 @@ def reading_options_for(prefix: str, what: str):
     `rrkit.read` keywords.
     """
 
+    params = _shared_params()
+    names = "|".join(re.escape(opt.name.replace("_", "-")) for opt in params)
+    own_flag = re.compile(rf"--({names})\b")
+
     def decorate(command):
-        for opt in reversed(_shared_params()):
+        for opt in reversed(params):
             name = opt.name
             flag = f"--{prefix}-{name.replace('_', '-')}"
             info = opt.to_info_dict()
             command = click.option(
                 flag, f"{prefix}_{name}", type=opt.type, default=opt.default,
                 show_default=opt.show_default, metavar=opt.metavar,
-                help=f"{what}: {info.get('help') or ''}")(command)
+                help=own_flag.sub(rf"--{prefix}-\1", f"{what}: {info.get('help') or ''}"),
+            )(command)
         return command
 
     return decorate

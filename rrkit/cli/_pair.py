@@ -8,6 +8,7 @@ Console example::
 
 from __future__ import annotations
 
+import re
 import warnings
 from pathlib import Path
 
@@ -24,13 +25,22 @@ from ._options import reader_keywords, reading_options_for
 OUTPUTS = ("pairs.csv", "windows.csv", "agreement.csv", "summary.txt", "pairs.png")
 
 
-def _read_one(path: Path, keywords: dict, what: str):
+def _own_options(text: str, keywords: dict, prefix: str) -> str:
+    """The library's keyword hints (``pass fs= in Hz``) as this file's options (``--dev-fs``)."""
+    names = "|".join(re.escape(k) for k in keywords)
+    return re.sub(rf"\b({names})=(?:'([^']*)'|(\d+(?:\.\d+)?))?",
+                  lambda m: f"--{prefix}-{m.group(1)}" + (
+                      f" {m.group(2) or m.group(3)}" if (m.group(2) or m.group(3)) else ""),
+                  text)
+
+
+def _read_one(path: Path, keywords: dict, what: str, prefix: str):
     with warnings.catch_warnings(record=True) as caught:
         warnings.simplefilter("always", QualityWarning)
         try:
             rec = read(path, **keywords)
         except InputError as exc:
-            raise InputError(f"{what}: {exc}") from None
+            raise InputError(f"{what}: " + _own_options(str(exc), keywords, prefix)) from None
     for w in caught:
         if issubclass(w.category, QualityWarning):
             click.echo(f"rrkit: warning: {what}: {w.message}", err=True)
@@ -71,8 +81,8 @@ def command(reference: Path, device: Path, window: str, tolerance: float,
 
     rrkit is not a medical device and makes no diagnosis.
     """
-    ref = _read_one(reference, reader_keywords(reader_values, "ref"), "reference")
-    dev = _read_one(device, reader_keywords(reader_values, "dev"), "device")
+    ref = _read_one(reference, reader_keywords(reader_values, "ref"), "reference", "ref")
+    dev = _read_one(device, reader_keywords(reader_values, "dev"), "device", "dev")
     result = compare_devices(ref, dev, windows=window, tolerance_ms=tolerance,
                              max_offset_s=max_offset, clock_offset_s=clock_offset,
                              clean=None if clean == "none" else clean)
