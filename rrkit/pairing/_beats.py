@@ -8,7 +8,7 @@ unpaired until none is left, so a spurious device beat next to a true one cannot
 place when the true one is closer.
 
 Default tolerance: 150 ms, the match window of ANSI/AAMI EC57 for beat detectors (secondary
-source, REFERENCES.md 5). It is also below half of the shortest interval up to 200 bpm
+source, REFERENCES.md 5). It is also at most half of the shortest interval up to 200 bpm
 (300 ms), so two neighbouring reference beats never compete for one device beat at rest and in
 most exercise.
 """

@@ -104,10 +104,12 @@ class DeviceComparison:
         """A readable summary: alignment, beats, intervals, windows and the RMSSD bias."""
         a, s = self.alignment, self.pairs.stats
         name = self.interval_name
+        where = "device time 0 on the reference clock"
+        if name == "pulse-to-pulse":
+            where += "; the constant pulse delay is part of it"
         lines = [
             "Alignment",
-            f"  offset {a.offset_s:.3f} s (device time 0 on the reference clock; a constant "
-            "pulse delay is part of it)",
+            f"  offset {a.offset_s:.3f} s ({where})",
             f"  drift {a.drift_ms_per_h:+.1f} ms per hour of the device clock",
             f"  confidence {a.confidence:.2f} ({a.locked_share:.1%} of beats locked, paired "
             f"intervals r = {a.beat_interval_r:.3f}); beat-time jitter {a.jitter_ms:.1f} ms",
