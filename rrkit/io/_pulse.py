@@ -21,10 +21,9 @@ from typing import Any
 
 import numpy as np
 
-from .._validation import check_option, check_range
 from ..errors import InputError, QualityWarning
 from ..recording import ReadInfo, Recording
-from ._checks import MIN_INTERVALS
+from ._checks import MIN_INTERVALS, check_signal
 
 __all__ = ["DEFAULT_PPG_DETECTOR", "PPG_DETECTORS", "PULSE_ANNOTATORS", "PULSE_WORDS",
            "as_pulse", "read_ppg_table", "recording_from_pulse_signal"]
@@ -95,15 +94,9 @@ def recording_from_pulse_signal(signal, *, fs_hz: float | None, path: str | None
     InputError
         No sampling rate, a signal too short, missing samples, or too few pulses found.
     """
-    if fs_hz is None:
-        raise InputError(f"reading {what} needs its sampling rate; there is no default",
-                         path=path, hint="pass fs= in Hz, for example fs=100")
-    fs = check_range("fs", fs_hz, low=_MIN_FS_HZ, unit="Hz")
-    detector = check_option("detector", detector, PPG_DETECTORS)
-    sig = np.asarray(signal, dtype=np.float64).ravel()
-    if sig.size < _MIN_SIGNAL_S * fs:
-        raise InputError(f"the {what} lasts {sig.size / fs:.2f} s, expected at least "
-                         f"{_MIN_SIGNAL_S:g} s of signal", path=path)
+    sig, fs, detector = check_signal(signal, fs_hz=fs_hz, detector=detector,
+                                     detectors=PPG_DETECTORS, min_fs_hz=_MIN_FS_HZ,
+                                     min_s=_MIN_SIGNAL_S, what=what, path=path, fs_example=100)
     bad = np.flatnonzero(~np.isfinite(sig))
     if bad.size:
         raise InputError(f"the {what} has {bad.size} missing or non-finite samples (first at "
