@@ -18,7 +18,8 @@ Steps
    constant part of the beat-time residuals is found as the mode of the beat-to-beat time
    differences within 0.5 s, mutual-nearest beats within `_LOCK_S` are paired, and a straight
    line ``t_ref = offset + slope * t_dev`` is fitted to the pairs by least squares, dropping
-   pairs beyond 4 robust SD and repeating (three rounds).
+   pairs beyond 4 robust SD, and repeating until the number of pairs stops growing (at most
+   12 rounds: a strong drift first locks the part near the coarse offset, then more).
 3. Each candidate is scored by the share of beats it locks times the correlation of the
    intervals between consecutive locked beats (a regular rhythm also locks at a shift of
    whole beats, but then the intervals no longer rise and fall together). The best score wins;
@@ -45,6 +46,7 @@ __all__ = ["MIN_LOCKED_SHARE", "MIN_OVERLAP_S", "Alignment", "align"]
 
 GRID_HZ = 4.0             # interval series resampled at 4 Hz (common practice for HRV spectra)
 MIN_OVERLAP_S = 60.0      # the two recordings must share at least a minute
+MIN_OVERLAP_SHARE = 0.25  # ... and a quarter of the shorter one
 MIN_LOCKED_SHARE = 0.5    # at least half the overlapping beats must pair after alignment
 MIN_CONFIDENCE = 0.25     # ... and clearly better than at any other offset
 _LOCK_S = 0.075           # pairs closer than this count as locked (fitting and scoring)
@@ -52,6 +54,7 @@ _N_CANDIDATES = 5
 _PEAK_SEPARATION_S = 5.0
 _MODE_RANGE_S = 0.5
 _MODE_BIN_S = 0.005
+_MAX_ROUNDS = 12
 
 
 @dataclass(frozen=True, slots=True)
@@ -223,11 +226,15 @@ def _refine(r: np.ndarray, t_dev: np.ndarray, lag: float):
     slope = 1.0
     sd = _LOCK_S
     i = j = np.zeros(0, dtype=np.int64)
-    for _ in range(3):
+    n_before = -1
+    for _ in range(_MAX_ROUNDS):  # a strong drift locks part of the recording first, then more
         u = offset + slope * t_dev
         i, j = mutual_pairs(r, u, min(max(4 * sd, 0.02), _LOCK_S))
         if i.size < 3:
             return offset, slope, 0.0, np.nan, 0, np.nan
+        if i.size <= n_before:
+            break
+        n_before = i.size
         a, b = np.polyfit(t_dev[j], r[i], 1) if i.size > 10 else (1.0, np.median(
             r[i] - t_dev[j]))
         res = r[i] - (b + a * t_dev[j])
@@ -322,14 +329,17 @@ def align(
     if max_offset_s is not None:
         max_offset_s = check_range("max_offset_s", max_offset_s, low=0.0, unit="s")
     lags, r, overlap = _xcorr(reference, device)
-    ok = overlap >= MIN_OVERLAP_S
+    # short overlaps correlate well by chance: ask for a quarter of the shorter recording too
+    need_s = max(MIN_OVERLAP_S, MIN_OVERLAP_SHARE * min(reference.duration_s,
+                                                        device.duration_s))
+    ok = overlap >= need_s
     if max_offset_s is not None:
         ok &= np.abs(lags - centre) <= max_offset_s
     where = (f"within {max_offset_s:g} s of an offset of {centre:g} s"
              if max_offset_s is not None else "at any offset")
     if not ok.any():
         raise InputError(
-            f"the recordings do not overlap by {MIN_OVERLAP_S:g} s {where} (reference "
+            f"the recordings do not overlap by {need_s:.0f} s {where} (reference "
             f"{reference.duration_s:.0f} s, device {device.duration_s:.0f} s)",
             path=device.source, hint="check that both files record the same session; widen "
                                      "max_offset_s")
