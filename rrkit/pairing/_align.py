@@ -11,7 +11,8 @@ Steps
 -----
 1. Coarse offset: both interval series (the interval ending at each beat, gaps left out) are
    interpolated linearly on a 4 Hz grid of their own clock, centred, and cross-correlated over
-   every lag with at least `MIN_OVERLAP_S` of common time; the correlation at each lag is the
+   every lag with at least `MIN_OVERLAP_S` of common time (and `MIN_OVERLAP_SHARE` of the
+   shorter recording); the correlation at each lag is the
    Pearson r of the overlapping parts (sums computed for all lags at once by FFT, with masks,
    so gaps and the changing overlap are handled exactly).
 2. The best few correlation peaks (at least 5 s apart) are tried on the beat times: the
