@@ -86,10 +86,13 @@ def command(reference: Path, device: Path, window: str, tolerance: float,
     result = compare_devices(ref, dev, windows=window, tolerance_ms=tolerance,
                              max_offset_s=max_offset, clock_offset_s=clock_offset,
                              clean=None if clean == "none" else clean)
+    from ..batch import neutralize_cells  # window labels can come from a user's events table
+
     outdir.mkdir(parents=True, exist_ok=True)
     atomic_write_text(outdir / "pairs.csv", result.pairs.table.to_csv(index=False))
-    atomic_write_text(outdir / "windows.csv", result.windows.to_csv(index=False))
-    atomic_write_text(outdir / "agreement.csv", result.stats_table().to_csv(index=False))
+    atomic_write_text(outdir / "windows.csv", neutralize_cells(result.windows).to_csv(index=False))
+    atomic_write_text(outdir / "agreement.csv",
+                      neutralize_cells(result.stats_table()).to_csv(index=False))
     text = (f"reference: {reference}  ({ref.info.interval_name})\n"
             f"device:    {device}  ({dev.info.interval_name})\n\n" + result.summary_text())
     atomic_write_text(outdir / "summary.txt", text + "\n")
