@@ -53,6 +53,9 @@ def test_text_table_is_never_taken_for_annotations(tmp_path):
     f = tmp_path / "x.csv"
     f.write_text("\n".join(str(v) for v in [800, 810, 790, 805, 795]) + "\n")
     assert rrkit.read(f).info.kind == "rr"
+    log = tmp_path / "x.log"  # a text file of another suffix beside the header: still text
+    log.write_text(f.read_text())
+    assert rrkit.read(log).info.kind == "rr"
     with pytest.raises(InputError, match="kind='annotations' reads WFDB annotation files"):
         rrkit.read(f, kind="annotations")
 

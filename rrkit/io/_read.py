@@ -24,8 +24,8 @@ KINDS = ("auto", "rr", "peaks", "ecg", "annotations", "pulse", "ppg")
 UNITS = ("auto", "ms", "s", "samples")
 _EDF_EXTENSIONS = (".edf", ".bdf", ".rec")
 _SEPARATORS = (None, ",", ";", "\t", " ", "none")
-#: suffixes of text files, never taken for WFDB annotations (any other suffix of a file beside
-#: a ``.hea`` header of the same record is: annotators name their files freely, ``.wabp``...)
+#: suffixes of text files, never taken for WFDB annotations (any other suffix of a binary file
+#: beside a ``.hea`` header of the same record is: annotators name their files freely, ``.wabp``)
 _TEXT_SUFFIXES = (".txt", ".csv", ".tsv", ".gz", ".json", ".tab", ".dat", ".hea")
 #: default for ``break_s``: uncovered time between timestamps that marks a break (common
 #: practice: longer than any beat-to-beat interval, above the 1 s resolution of most exports)
@@ -41,8 +41,9 @@ def _format_of(p: Path) -> str:
         return "wfdb"
     if suffix in WFDB_ANNOTATION_EXTENSIONS:
         return "annotations"
-    if suffix and suffix not in _TEXT_SUFFIXES and p.with_suffix(".hea").is_file():
-        return "annotations"  # beside the header of its record: an annotator's file
+    if (suffix and suffix not in _TEXT_SUFFIXES and p.with_suffix(".hea").is_file()
+            and p.is_file() and _binary(p)):
+        return "annotations"  # binary, beside the header of its record: an annotator's file
     if suffix == "" and not p.exists() and Path(str(p) + ".hea").is_file():
         return "wfdb"
     return "text"
