@@ -7,8 +7,7 @@ final file gets the usual mode (0666 minus the umask), not the 0600 of a tempora
 
 The one implementation of this in rrkit (used by the HDF5 store, `write_rr`, the batch outputs,
 the files of ``rrkit clean``, ``rrkit agree`` and ``rrkit pair``, the Bland-Altman and the
-paired-recordings figures); it sits at the
-lowest stage so that any stage may import it.
+paired-recordings figures); it sits at the lowest stage so that any stage may import it.
 """
 
 from __future__ import annotations
