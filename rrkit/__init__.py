@@ -24,6 +24,7 @@ from .daily import BaselineSettings, DailySettings, daily_table
 from .errors import InputError, QualityWarning, RrkitWarning
 from .io import read, write_rr
 from .metrics import Bands, MetricsResult, MetricsSettings, Spectrum, metrics, spectrum
+from .pairing import Alignment, BeatPairs, DeviceComparison, align, compare_devices, pair_beats
 from .recording import ReadInfo, Recording
 from .windows import MORNING, Window, parse_window, resolve_windows
 
@@ -68,4 +69,11 @@ __all__ = [
     "agreement",
     "reference_table",
     "search_definitions",
+    # simultaneous recordings
+    "Alignment",
+    "BeatPairs",
+    "DeviceComparison",
+    "align",
+    "compare_devices",
+    "pair_beats",
 ]

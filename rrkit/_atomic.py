@@ -6,8 +6,8 @@ the suffix `TMP_SUFFIX`; `remove_stale_temporaries` deletes those a killed run l
 final file gets the usual mode (0666 minus the umask), not the 0600 of a temporary file.
 
 The one implementation of this in rrkit (used by the HDF5 store, `write_rr`, the batch outputs,
-the files of ``rrkit clean`` and ``rrkit agree`` and the Bland-Altman figure); it sits at the
-lowest stage so that any stage may import it.
+the files of ``rrkit clean``, ``rrkit agree`` and ``rrkit pair``, the Bland-Altman and the
+paired-recordings figures); it sits at the lowest stage so that any stage may import it.
 """
 
 from __future__ import annotations

@@ -40,7 +40,8 @@ class ReadInfo:
     Attributes
     ----------
     kind : str
-        ``"rr"``, ``"peaks"``, ``"ecg"``, ``"annotations"`` or ``"array"`` (built in Python).
+        ``"rr"``, ``"peaks"``, ``"ecg"``, ``"annotations"``, ``"pulse"`` (pulse intervals or
+        times), ``"ppg"`` (pulses detected in a pulse wave) or ``"array"`` (built in Python).
     kind_decided_by : str
         ``"given"`` when the caller passed it, else the rule that decided it.
     unit : str or None
@@ -66,6 +67,16 @@ class ReadInfo:
 
     def __post_init__(self) -> None:
         object.__setattr__(self, "extra", MappingProxyType(dict(self.extra)))
+
+    @property
+    def pulse_derived(self) -> bool:
+        """True when the beats come from a pulse wave (PPG, pressure), not from an ECG."""
+        return self.kind in ("pulse", "ppg") or bool(self.extra.get("pulse_derived"))
+
+    @property
+    def interval_name(self) -> str:
+        """``"pulse-to-pulse"`` for pulse-derived beats, else ``"RR"`` (for labels and texts)."""
+        return "pulse-to-pulse" if self.pulse_derived else "RR"
 
     def to_dict(self) -> dict[str, Any]:
         """Plain-dict copy (for JSON, HDF5 attributes and tables)."""

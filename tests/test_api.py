@@ -15,6 +15,8 @@ PUBLIC = {
     "RrkitWarning", "Spectrum", "Window", "__version__", "agreement", "analyze", "clean",
     "daily_table", "metrics", "parse_window", "read", "reference_table", "resolve_windows",
     "run_daily", "search_definitions", "spectrum", "windows", "write_rr",
+    # simultaneous recordings of one heart
+    "Alignment", "BeatPairs", "DeviceComparison", "align", "compare_devices", "pair_beats",
 }
 
 
@@ -37,6 +39,8 @@ def test_public_functions_take_options_by_keyword_only():
         "agreement": {"reported", "reference"}, "reference_table": {"nights"},
         "search_definitions": {"reported", "nights"}, "daily_table": {"recordings"},
         "run_daily": {"root", "outdir"},
+        "align": {"reference", "device"}, "pair_beats": {"reference", "device"},
+        "compare_devices": {"reference", "device"},
     }
     for name, allowed in positional_ok.items():
         sig = inspect.signature(getattr(rrkit, name))

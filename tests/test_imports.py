@@ -30,6 +30,7 @@ RANK = {
     "analysis": 6,
     "daily": 7, "agreement": 7, "_agreement_stats": 7, "_agreement_text": 7, "exercise": 7,
     "_agreement_search": 7,
+    "pairing": 7,      # simultaneous recordings: analysis and agreement on two recordings
     "io.store": 7,     # the HDF5 store keeps clean results and window metrics
     "batch": 8,
     "report": 8,       # the squad page reads a run's outputs and draws with plots

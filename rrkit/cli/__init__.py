@@ -27,7 +27,7 @@ from ..errors import InputError
 __all__ = ["cli", "error_line", "main", "usage_line"]
 
 # subcommand name -> module under rrkit.cli (one module per command)
-_COMMANDS = ("info", "clean", "analyze", "daily", "agree", "ramp", "plot", "report",
+_COMMANDS = ("info", "clean", "analyze", "daily", "agree", "pair", "ramp", "plot", "report",
              "demo")
 
 

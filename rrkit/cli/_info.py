@@ -85,7 +85,14 @@ def describe(rec: Recording) -> list[tuple[str, str]]:
         rows.append(("gaps", "none"))
     if "timestamps" in ex:
         rows.append(("times", str(ex["timestamps"])))
-    if "detector" in ex:
+    if info.pulse_derived:
+        why = ex.get("pulse_derived_by", info.kind)
+        rows.append(("intervals", f"pulse-to-pulse, not RR ({why})"))
+    if "detector" in ex and info.kind == "ppg":
+        found = 100 * ex.get("detection_coverage", 0)
+        rows.append(("PPG", f"detector {ex['detector']}; {found:.1f}% of the pulses the median "
+                            "interval implies were found"))
+    elif "detector" in ex:
         rows.append(("ECG", (
             f"detector {ex['detector']}; inverted lead {_yes_no(ex.get('inverted_lead'))}; "
             f"{100 * ex.get('detection_quality', 0):.1f}% of beats match the median beat; "

@@ -13,7 +13,8 @@ import numpy as np
 
 from ..errors import InputError
 
-__all__ = ["MIN_INTERVALS", "check_enough", "check_regular_file", "peaks_to_seconds", "rr_to_ms"]
+__all__ = ["MIN_INTERVALS", "check_enough", "check_regular_file", "check_signal",
+           "peaks_to_seconds", "rr_to_ms"]
 
 #: fewest intervals a reader accepts: with fewer there is not even one successive difference
 #: pair to analyse (RMSSD needs two intervals, a spectrum far more)
@@ -103,3 +104,25 @@ def check_regular_file(path: str | os.PathLike[str]) -> None:
     what = next((name for test, name in _SPECIAL_KINDS if test(mode)), "a special file")
     raise InputError(f"is {what}, not a regular file; rrkit reads only regular files",
                      path=path, hint="save the data to a file first")
+
+
+def check_signal(signal, *, fs_hz: float | None, detector: str, detectors: tuple[str, ...],
+                 min_fs_hz: float, min_s: float, what: str, path: str | None,
+                 fs_example: int) -> tuple[np.ndarray, float, str]:
+    """The rules every raw signal (ECG, PPG) meets before detection: ``(samples, fs, detector)``.
+
+    The sampling rate has no default (an error says so), it must reach ``min_fs_hz``, the
+    detector must be one of ``detectors``, and the signal must last ``min_s`` seconds.
+    """
+    from .._validation import check_option, check_range
+
+    if fs_hz is None:
+        raise InputError(f"reading {what} needs its sampling rate; there is no default",
+                         path=path, hint=f"pass fs= in Hz, for example fs={fs_example}")
+    fs = check_range("fs", fs_hz, low=min_fs_hz, unit="Hz")
+    detector = check_option("detector", detector, detectors)
+    sig = np.asarray(signal, dtype=np.float64).ravel()
+    if sig.size < min_s * fs:
+        raise InputError(f"the {what} lasts {sig.size / fs:.2f} s, expected at least "
+                         f"{min_s:g} s of signal", path=path)
+    return sig, fs, detector

@@ -29,10 +29,9 @@ from typing import Any
 
 import numpy as np
 
-from .._validation import check_option, check_range
 from ..errors import InputError, QualityWarning
 from ..recording import ReadInfo, Recording
-from ._checks import MIN_INTERVALS
+from ._checks import MIN_INTERVALS, check_signal
 
 __all__ = ["DEFAULT_DETECTOR", "DETECTORS", "detect_beats", "recording_from_signal"]
 
@@ -191,15 +190,9 @@ def detect_beats(signal, *, fs_hz: float | None, detector: str = DEFAULT_DETECTO
     InputError
         Missing sampling rate, a signal too short, or no (or too few) beats found.
     """
-    if fs_hz is None:
-        raise InputError(f"reading {what} needs its sampling rate; there is no default",
-                         path=path, hint="pass fs= in Hz, for example fs=250")
-    fs = check_range("fs", fs_hz, low=_MIN_FS_HZ, unit="Hz")
-    detector = check_option("detector", detector, DETECTORS)
-    sig = np.asarray(signal, dtype=np.float64).ravel()
-    if sig.size < _MIN_SEGMENT_S * fs:
-        raise InputError(f"the {what} lasts {sig.size / fs:.2f} s, expected at least "
-                         f"{_MIN_SEGMENT_S:g} s of signal", path=path)
+    sig, fs, detector = check_signal(signal, fs_hz=fs_hz, detector=detector,
+                                     detectors=DETECTORS, min_fs_hz=_MIN_FS_HZ,
+                                     min_s=_MIN_SEGMENT_S, what=what, path=path, fs_example=250)
     bad, found = _unusable(sig, fs)
     starts, stops = _runs(~bad)
     long_enough = (stops - starts) >= _MIN_SEGMENT_S * fs

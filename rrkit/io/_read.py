@@ -10,6 +10,7 @@ from ..errors import InputError
 from ..recording import Recording
 from ._checks import check_regular_file
 from ._ecg import DEFAULT_DETECTOR, DETECTORS
+from ._pulse import DEFAULT_PPG_DETECTOR, PPG_DETECTORS, as_pulse, read_ppg_table
 from ._records import (
     WFDB_ANNOTATION_EXTENSIONS,
     read_edf,
@@ -20,10 +21,13 @@ from ._tabular import read_table
 
 __all__ = ["DEFAULT_BREAK_S", "KINDS", "UNITS", "read"]
 
-KINDS = ("auto", "rr", "peaks", "ecg", "annotations")
+KINDS = ("auto", "rr", "peaks", "ecg", "annotations", "pulse", "ppg")
 UNITS = ("auto", "ms", "s", "samples")
 _EDF_EXTENSIONS = (".edf", ".bdf", ".rec")
 _SEPARATORS = (None, ",", ";", "\t", " ", "none")
+#: suffixes of text files, never taken for WFDB annotations (any other suffix of a binary file
+#: beside a ``.hea`` header of the same record is: annotators name their files freely, ``.wabp``)
+_TEXT_SUFFIXES = (".txt", ".csv", ".tsv", ".gz", ".json", ".tab", ".dat", ".hea")
 #: default for ``break_s``: uncovered time between timestamps that marks a break (common
 #: practice: longer than any beat-to-beat interval, above the 1 s resolution of most exports)
 DEFAULT_BREAK_S = 2.0
@@ -38,6 +42,9 @@ def _format_of(p: Path) -> str:
         return "wfdb"
     if suffix in WFDB_ANNOTATION_EXTENSIONS:
         return "annotations"
+    if (suffix and suffix not in _TEXT_SUFFIXES and p.with_suffix(".hea").is_file()
+            and p.is_file() and _binary(p)):
+        return "annotations"  # binary, beside the header of its record: an annotator's file
     if suffix == "" and not p.exists() and Path(str(p) + ".hea").is_file():
         return "wfdb"
     return "text"
@@ -64,19 +71,24 @@ def read(
     path : str or path-like
         The file. Text (``.txt``, ``.csv``, ``.tsv``, any name; ``.gz`` compressed allowed), EDF
         (``.edf``, ``.bdf``), a WFDB record (``.hea``, ``.dat`` or the record prefix) or a WFDB
-        annotation file (``.atr``, ``.qrs``, ...).
-    kind : {"auto", "rr", "peaks", "ecg", "annotations"}
+        annotation file (``.atr``, ``.qrs``, ... or any other annotator's extension when the
+        file lies beside the ``.hea`` header of its record, such as ``.wabp``).
+    kind : {"auto", "rr", "peaks", "ecg", "annotations", "pulse", "ppg"}
         What the file holds. ``"auto"`` decides from the file type, the column names, then the
         values (strictly increasing values with heartbeat-sized steps are peak times); the rule
-        used is kept in ``info.kind_decided_by``.
+        used is kept in ``info.kind_decided_by``. ``"pulse"``: pulse-to-pulse intervals or
+        pulse peak/onset times (text, or WFDB pulse annotations), read like RR intervals or
+        R-peak times and marked pulse-derived (``info.pulse_derived``); ``"ppg"``: a raw pulse
+        wave (text column, EDF or WFDB channel) whose peaks neurokit2 detects. Annotations
+        from the ``wabp`` annotator are marked pulse-derived without asking.
     unit : {"auto", "ms", "s", "samples"}
         Unit of the values (RR intervals or peak times). ``"auto"`` decides from the column name,
         then the range: median RR (or median step between peaks) in 200-3000 is ms, in 0.2-3.0
         is s; a range fitting neither is an error asking for ``unit=``. ``"samples"`` needs
         ``fs``. Kept in ``info.unit_decided_by``.
     fs : float, optional
-        Sampling rate in Hz: required for sample indices and for an ECG column in a text file
-        (there is no default). EDF and WFDB files carry it in their header; a different ``fs``
+        Sampling rate in Hz: required for sample indices and for an ECG or PPG column in a text
+        file (there is no default). EDF and WFDB files carry it in their header; a different ``fs``
         is an error.
     column : str or int, optional
         Column name or 0-based index of the values (text tables), or channel label or index
@@ -85,7 +97,9 @@ def read(
         Subject id stored in the recording.
     detector : str
         R-peak detector of ``neurokit2.ecg_peaks`` for ECG (default ``"neurokit"``,
-        neurokit2's own default). Kept in ``info.extra["detector"]``.
+        neurokit2's own default), or for ``kind="ppg"`` a method of ``neurokit2.ppg_peaks``
+        (``"elgendi"``, neurokit2's default and what the ECG default stands for there,
+        ``"bishop"``, ``"charlton"``). Kept in ``info.extra["detector"]``.
     timestamp_column : str or int, optional
         Column of ISO 8601 times or Unix epoch numbers; default: found by content.
     break_s : float or None
@@ -135,7 +149,7 @@ def read(
     """
     kind = check_option("kind", kind, KINDS)
     unit = check_option("unit", unit, UNITS)
-    detector = check_option("detector", detector, DETECTORS)
+    detector = check_option("detector", detector, DETECTORS + PPG_DETECTORS)
     if fs is not None:
         fs = check_range("fs", fs, low=0, low_inclusive=False, unit="Hz")
     if break_s is not None:
@@ -152,31 +166,78 @@ def read(
             if os.path.lexists(part):
                 check_regular_file(part)
     src = str(p)
-    if kind == "annotations" or (kind == "auto" and fmt == "annotations"):
-        if fmt == "text" and p.suffix:
+    if kind == "pulse" and fmt == "text" and p.suffix.lower() not in _TEXT_SUFFIXES and (
+            _binary(p)):
+        fmt = "annotations"  # pulse annotations of an annotator, without their header
+    if kind == "annotations" or (kind in ("auto", "pulse") and fmt == "annotations"):
+        if fmt == "text" and p.suffix.lower() in _TEXT_SUFFIXES:
             raise InputError(
                 "kind='annotations' reads WFDB annotation files; a text table of beats is read "
-                "with kind='peaks'", path=p)
-        by = "given" if kind == "annotations" else f"WFDB annotation extension {p.suffix!r}"
+                "with kind='peaks' (or kind='pulse' for pulse times)", path=p)
+        if kind == "annotations":
+            by = "given"
+        elif p.suffix.lower() in WFDB_ANNOTATION_EXTENSIONS:
+            by = f"WFDB annotation extension {p.suffix!r}"
+        else:
+            by = f"file {p.name!r} beside the header {p.with_suffix('.hea').name!r}"
         if fmt == "wfdb":  # record name given: use its reference annotations
             p = Path(str(p.with_suffix("")) + ".atr")
-        return read_wfdb_annotations(str(p), fs_hz=fs, subject=subject, kind_decided_by=by)
+        rec = read_wfdb_annotations(str(p), fs_hz=fs, subject=subject, kind_decided_by=by)
+        return as_pulse(rec, why="kind='pulse' given") if kind == "pulse" else rec
     if fmt == "annotations":
-        raise InputError(f"WFDB annotation files are read with kind='annotations' (got "
-                         f"kind={kind!r})", path=p)
+        raise InputError(f"WFDB annotation files are read with kind='annotations' or "
+                         f"kind='pulse' (got kind={kind!r})", path=p)
+    if kind == "ppg":
+        detector = _ppg_detector(detector, p)
+    elif detector in PPG_DETECTORS:
+        raise InputError(f"detector={detector!r} finds pulse peaks in a PPG; it applies to "
+                         f"kind='ppg' (got kind={kind!r})", path=p,
+                         hint="pass kind='ppg', or an ECG detector such as 'neurokit'")
     if fmt in ("edf", "wfdb"):
-        if kind not in ("auto", "ecg"):
-            raise InputError(f"{fmt.upper()} files hold signals; read them with kind='ecg' "
-                             f"(got kind={kind!r})", path=p)
+        if kind not in ("auto", "ecg", "ppg"):
+            raise InputError(f"{fmt.upper()} files hold signals; read them with kind='ecg' or "
+                             f"kind='ppg' (got kind={kind!r})", path=p)
         if unit != "auto":
-            raise InputError("unit= does not apply to ECG signals (their header gives the unit)",
+            raise InputError("unit= does not apply to signals (their header gives the unit)",
                              path=p)
-        by = "given" if kind == "ecg" else f"{fmt.upper()} file ({p.suffix or 'record name'})"
+        by = ("given" if kind in ("ecg", "ppg")
+              else f"{fmt.upper()} file ({p.suffix or 'record name'})")
+        signal = "ppg" if kind == "ppg" else "ecg"
         if fmt == "edf":
             return read_edf(src, fs_hz=fs, column=column, detector=detector, subject=subject,
-                            kind_decided_by=by)
+                            kind_decided_by=by, signal=signal)
         return read_wfdb_record(src, fs_hz=fs, column=column, detector=detector,
-                                subject=subject, kind_decided_by=by)
-    return read_table(src, kind=kind, unit=unit, fs_hz=fs, column=column,
-                      timestamp_column=timestamp_column, subject=subject, break_s=break_s,
-                      sep=sep, decimal=decimal, detector=detector)
+                                subject=subject, kind_decided_by=by, signal=signal)
+    if kind == "ppg":
+        if unit != "auto":
+            raise InputError("unit= does not apply to a PPG signal (pulse peaks are detected)",
+                             path=p)
+        return read_ppg_table(src, column=column, fs_hz=fs, detector=detector,
+                              subject=subject, sep=sep, decimal=decimal)
+    rec = read_table(src, kind="auto" if kind == "pulse" else kind, unit=unit, fs_hz=fs,
+                     column=column, timestamp_column=timestamp_column, subject=subject,
+                     break_s=break_s, sep=sep, decimal=decimal, detector=detector)
+    if kind != "pulse":
+        return rec
+    if rec.info.kind not in ("rr", "peaks"):
+        raise InputError("kind='pulse' reads pulse-to-pulse intervals or pulse peak/onset "
+                         f"times, but the column read holds {rec.info.kind} values", path=p,
+                         hint="a raw pulse wave is read with kind='ppg'")
+    return as_pulse(rec, why="kind='pulse' given")
+
+
+def _binary(p: Path) -> bool:
+    """True when the file's first bytes hold a NUL (no text file does)."""
+    with open(p, "rb") as fh:
+        return b"\x00" in fh.read(512)
+
+
+def _ppg_detector(detector: str, p: Path) -> str:
+    """The PPG peak method: the ECG default stands for 'not chosen', which is neurokit2's."""
+    if detector in PPG_DETECTORS:
+        return detector
+    if detector == DEFAULT_DETECTOR:
+        return DEFAULT_PPG_DETECTOR
+    raise InputError(f"detector={detector!r} is an R-peak detector for ECG; a PPG takes one of "
+                     f"{list(PPG_DETECTORS)}", path=p,
+                     hint=f"leave detector out for neurokit2's {DEFAULT_PPG_DETECTOR!r}")

@@ -25,6 +25,7 @@ from ..recording import ReadInfo, Recording
 from ._checks import check_enough
 from ._detect import is_ecg_lead
 from ._ecg import recording_from_signal
+from ._pulse import PULSE_ANNOTATORS, pick_pulse_channel, recording_from_pulse_signal
 from ._wfdb_symbols import BEAT_SYMBOLS
 
 __all__ = ["WFDB_ANNOTATION_EXTENSIONS", "read_edf", "read_wfdb_annotations", "read_wfdb_record",
@@ -45,12 +46,22 @@ def _need(module: str, extra: str):
                          hint=f"pip install 'rrkit[{extra}]'") from None
 
 
-def _channel_reason(labels: list[str], k: int, column) -> str:
+def _channel_reason(labels: list[str], k: int, column, signal: str = "ecg") -> str:
     if column is not None:
         return f"channel {labels[k]!r} given"
     if len(labels) == 1:
         return "the only channel"
-    return f"first channel labelled as an ECG lead ({labels[k]!r})"
+    what = "a pulse wave" if signal == "ppg" else "an ECG lead"
+    return f"first channel labelled as {what} ({labels[k]!r})"
+
+
+def _from_signal(signal: str, sig, **kw) -> Recording:
+    """Beats of one channel: R peaks of an ECG, or pulse peaks of a PPG (``signal="ppg"``)."""
+    if signal == "ppg":
+        kw["what"] = kw["what"].replace("ECG lead", "pulse channel").replace("ECG channel",
+                                                                             "pulse channel")
+        return recording_from_pulse_signal(sig, **kw)
+    return recording_from_signal(sig, **kw)
 
 
 @contextlib.contextmanager
@@ -62,7 +73,7 @@ def _quiet_wfdb():
         yield
 
 
-def _pick_channel(labels: list[str], column, path: str) -> int:
+def _pick_channel(labels: list[str], column, path: str, signal: str = "ecg") -> int:
     if column is not None:
         if isinstance(column, (int, np.integer)) and not isinstance(column, bool):
             k = int(column)
@@ -78,12 +89,18 @@ def _pick_channel(labels: list[str], column, path: str) -> int:
             return int(want)
         raise InputError(f"column={column!r} is not a channel of this record; channels: "
                          f"{labels}", path=path)
-    for k, lab in enumerate(labels):
-        if is_ecg_lead(lab):
+    if signal == "ppg":
+        k = pick_pulse_channel(labels)
+        if k is not None:
             return k
+    else:
+        for k, lab in enumerate(labels):
+            if is_ecg_lead(lab):
+                return k
     if len(labels) == 1:
         return 0
-    raise InputError(f"no channel is labelled as an ECG lead; channels: {labels}", path=path,
+    what = "a pulse wave" if signal == "ppg" else "an ECG lead"
+    raise InputError(f"no channel is labelled as {what}; channels: {labels}", path=path,
                      hint="pass column=, a channel label or 0-based index")
 
 
@@ -110,8 +127,10 @@ def _wfdb_start(header) -> datetime | None:
 
 
 def read_wfdb_record(path: str, *, fs_hz: float | None, column, detector: str,
-                     subject: str | None, kind_decided_by: str) -> Recording:
-    """Detect beats in one lead of a WFDB record (``.hea`` + signal file)."""
+                     subject: str | None, kind_decided_by: str,
+                     signal: str = "ecg") -> Recording:
+    """Detect beats in one channel of a WFDB record (``.hea`` + signal file): R peaks of an
+    ECG lead, or pulse peaks of a pulse wave with ``signal="ppg"``."""
     with _quiet_wfdb():
         wfdb = _need("wfdb", "wfdb")
     prefix = wfdb_prefix(path)
@@ -121,7 +140,7 @@ def read_wfdb_record(path: str, *, fs_hz: float | None, column, detector: str,
     try:
         with _quiet_wfdb():
             header = wfdb.rdheader(prefix)
-        k = _pick_channel(list(header.sig_name or []), column, path)
+        k = _pick_channel(list(header.sig_name or []), column, path, signal)
         with _quiet_wfdb():
             rec = wfdb.rdrecord(prefix, channels=[k])
     except InputError:
@@ -133,8 +152,9 @@ def read_wfdb_record(path: str, *, fs_hz: float | None, column, detector: str,
     extra: dict[str, Any] = {"format": "WFDB", "record": Path(prefix).name,
                              "signal_unit": (rec.units or [None])[0],
                              "n_samples": int(sig.size),
-                             "column_chosen_by": _channel_reason(list(header.sig_name), k, column)}
-    return recording_from_signal(sig, fs_hz=fs, path=str(path), detector=detector,
+                             "column_chosen_by": _channel_reason(list(header.sig_name), k, column,
+                                                                 signal)}
+    return _from_signal(signal, sig, fs_hz=fs, path=str(path), detector=detector,
                                  subject=subject, start=_wfdb_start(header),
                                  kind_decided_by=kind_decided_by, column=header.sig_name[k],
                                  extra=extra, what=f"ECG lead {header.sig_name[k]}")
@@ -191,6 +211,9 @@ def read_wfdb_annotations(path: str, *, fs_hz: float | None, subject: str | None
         "non_beat_annotations_skipped": int(sum(skipped.values())),
         "non_beat_symbols": ", ".join(f"{s} x{c}" for s, c in skipped.most_common()),
     }
+    if ext.lower() in PULSE_ANNOTATORS:
+        extra["pulse_derived"] = True
+        extra["pulse_derived_by"] = f"annotator {ext!r} marks pulses, not QRS complexes"
     info = ReadInfo(kind="annotations", kind_decided_by=kind_decided_by, unit="samples",
                     unit_decided_by="WFDB annotations count samples", fs_hz=fs, column=None,
                     extra=extra)
@@ -200,7 +223,7 @@ def read_wfdb_annotations(path: str, *, fs_hz: float | None, subject: str | None
 
 
 def read_edf(path: str, *, fs_hz: float | None, column, detector: str, subject: str | None,
-             kind_decided_by: str) -> Recording:
+             kind_decided_by: str, signal: str = "ecg") -> Recording:
     """Detect beats in the ECG channel of an EDF, EDF+ or BDF file."""
     pyedflib = _need("pyedflib", "edf")
     try:
@@ -212,15 +235,15 @@ def read_edf(path: str, *, fs_hz: float | None, column, detector: str, subject: 
                          path=path) from None
     try:
         labels = [str(s).strip() for s in reader.getSignalLabels()]
-        k = _pick_channel(labels, column, path)
+        k = _pick_channel(labels, column, path, signal)
         fs = _check_fs(fs_hz, reader.getSampleFrequency(k), path)
         sig = np.asarray(reader.readSignal(k), dtype=np.float64)
         start = reader.getStartdatetime()
         extra: dict[str, Any] = {"format": "EDF", "signal_unit": reader.getPhysicalDimension(k),
                                  "n_samples": int(sig.size), "channels": ", ".join(labels),
-                                 "column_chosen_by": _channel_reason(labels, k, column)}
+                                 "column_chosen_by": _channel_reason(labels, k, column, signal)}
     finally:
         reader.close()
-    return recording_from_signal(sig, fs_hz=fs, path=str(path), detector=detector,
+    return _from_signal(signal, sig, fs_hz=fs, path=str(path), detector=detector,
                                  subject=subject, start=start, kind_decided_by=kind_decided_by,
                                  column=labels[k], extra=extra, what=f"ECG channel {labels[k]}")
