@@ -228,7 +228,7 @@ def test_rerun_unchanged_recomputes_nothing(tmp_path):
     assert (fourth.n_done, fourth.n_skipped) == (10, 0)
     # baseline settings do not change a file's result: nothing recomputed
     fifth = run_daily(data, out, executor=InlineExecutor(), settings=DailySettings(
-        window="start:30+240", baselines=BaselineSettings(band_sd=1.0)))
+        window="start:30+240", baselines=BaselineSettings(swc_sd=1.0)))
     assert fifth.n_computed == 0
 
 
@@ -519,7 +519,7 @@ def test_pattern_recovers_what_a_name_was_made_of(subject, day, clock, compact):
 @pytest.mark.parametrize(("option", "value", "shown"), [
     ("--min-days", "9", "--min-days must be in [1, 7]; got 9"),
     ("--baseline-min", "0", "--baseline-min must be in"),
-    ("--band-sd", "-1", "--band-sd must be in"),
+    ("--swc-sd", "-1", "--swc-sd must be in"),
     ("--from", "2026-13-01", "--from must be a date 'YYYY-MM-DD'"),
 ])
 def test_daily_usage_errors_name_the_option(tmp_path, capsys, option, value, shown):
@@ -528,5 +528,5 @@ def test_daily_usage_errors_name_the_option(tmp_path, capsys, option, value, sho
     assert rc == 2
     err = capsys.readouterr().err
     assert shown in err
-    for internal in ("_days", "band_sd", "first_date"):  # the Python names stay out of it
+    for internal in ("_days", "swc_sd", "first_date"):  # the Python names stay out of it
         assert internal not in err

@@ -46,8 +46,14 @@ def test_rolling_fixture_from_references():
     assert day7["ln_rmssd_cv_7d"] == pytest.approx(2.6978, abs=5e-5)
     assert day10["ln_rmssd_7d"] == pytest.approx(4.091087, abs=5e-7)
     assert day10["ln_rmssd_cv_7d"] == pytest.approx(2.8156, abs=5e-5)
-    assert day7["ln_rmssd_band_low"] == pytest.approx(4.034008, abs=5e-7)
-    assert day7["ln_rmssd_band_high"] == pytest.approx(4.144324, abs=5e-7)
+    assert day7["ln_rmssd_swc_low"] == pytest.approx(4.034008, abs=5e-7)
+    assert day7["ln_rmssd_swc_high"] == pytest.approx(4.144324, abs=5e-7)
+    # the column names of the smallest-worthwhile-change (SWC) band and its flags are pinned
+    swc = ["ln_rmssd_swc_low", "ln_rmssd_swc_high", "below_swc", "above_swc",
+           "hr_swc_low_bpm", "hr_swc_high_bpm", "hr_below_swc", "hr_above_swc"]
+    cols = list(out.columns)
+    assert [c for c in cols if "swc" in c] == swc
+    assert not [c for c in cols if "band" in c]
     # fewer than 3 ok days in the window: no 7-day value (Plews et al. 2014 minimum)
     assert math.isnan(out.iloc[1]["ln_rmssd_7d"])
     assert out.iloc[2]["n_ok_7d"] == 3
@@ -93,14 +99,14 @@ def _independent(table: pd.DataFrame, b: BaselineSettings) -> pd.DataFrame:
             e["mean_hr_bpm_7d"] = statistics.fmean(in7["mean_hr_bpm"])
         if len(inb) >= b.baseline_min_days:
             m, sd = statistics.fmean(inb["ln_rmssd"]), statistics.stdev(inb["ln_rmssd"])
-            e["ln_rmssd_band_low"], e["ln_rmssd_band_high"] = m - b.band_sd * sd, m + b.band_sd * sd
+            e["ln_rmssd_swc_low"], e["ln_rmssd_swc_high"] = m - b.swc_sd * sd, m + b.swc_sd * sd
             hm, hsd = statistics.fmean(inb["mean_hr_bpm"]), statistics.stdev(inb["mean_hr_bpm"])
-            e["hr_band_low_bpm"], e["hr_band_high_bpm"] = hm - b.band_sd * hsd, hm + b.band_sd * hsd
+            e["hr_swc_low_bpm"], e["hr_swc_high_bpm"] = hm - b.swc_sd * hsd, hm + b.swc_sd * hsd
             if "ln_rmssd_7d" in e:
-                e["below_band"] = e["ln_rmssd_7d"] < e["ln_rmssd_band_low"]
-                e["above_band"] = e["ln_rmssd_7d"] > e["ln_rmssd_band_high"]
-                e["hr_below_band"] = e["mean_hr_bpm_7d"] < e["hr_band_low_bpm"]
-                e["hr_above_band"] = e["mean_hr_bpm_7d"] > e["hr_band_high_bpm"]
+                e["below_swc"] = e["ln_rmssd_7d"] < e["ln_rmssd_swc_low"]
+                e["above_swc"] = e["ln_rmssd_7d"] > e["ln_rmssd_swc_high"]
+                e["hr_below_swc"] = e["mean_hr_bpm_7d"] < e["hr_swc_low_bpm"]
+                e["hr_above_swc"] = e["mean_hr_bpm_7d"] > e["hr_swc_high_bpm"]
         monday = r["date"] - dt.timedelta(days=r["date"].weekday())
         wk = table[(table["subject"] == r["subject"]) & (table["date"] >= monday)
                    & (table["date"] < monday + dt.timedelta(days=7))]
@@ -114,25 +120,25 @@ def _independent(table: pd.DataFrame, b: BaselineSettings) -> pd.DataFrame:
 
 @pytest.mark.parametrize("b", [
     BaselineSettings(baseline_days=21, baseline_min_days=10),
-    BaselineSettings(baseline_days=14, baseline_min_days=7, baseline_lag_days=7, band_sd=1.0,
+    BaselineSettings(baseline_days=14, baseline_min_days=7, baseline_lag_days=7, swc_sd=1.0,
                      rolling_min_days=4, week_min_days=4),
 ])
 def test_baselines_equal_independent_computation(b):
     table = _squad()
     got = add_baselines(table, settings=b)
     want = _independent(table, b)
-    for col in ("ln_rmssd_7d", "ln_rmssd_cv_7d", "mean_hr_bpm_7d", "ln_rmssd_band_low",
-                "ln_rmssd_band_high", "hr_band_low_bpm", "hr_band_high_bpm",
+    for col in ("ln_rmssd_7d", "ln_rmssd_cv_7d", "mean_hr_bpm_7d", "ln_rmssd_swc_low",
+                "ln_rmssd_swc_high", "hr_swc_low_bpm", "hr_swc_high_bpm",
                 "week_compliance_pct", "ln_rmssd_week"):
         w = want[col].to_numpy(dtype=float) if col in want else np.full(len(got), np.nan)
         np.testing.assert_allclose(got[col].to_numpy(dtype=float), w, rtol=1e-12, atol=1e-12,
                                    err_msg=col)
-    for col in ("below_band", "above_band", "hr_below_band", "hr_above_band"):
+    for col in ("below_swc", "above_swc", "hr_below_swc", "hr_above_swc"):
         w = [None if (not isinstance(v, (bool, np.bool_))) else bool(v) for v in want[col]]
         g = [None if v is pd.NA else bool(v) for v in got[col]]
         assert g == w, col
-    assert got["below_band"].any() or got["above_band"].any()  # the check sees both states
-    assert got["ln_rmssd_band_low"].notna().sum() > 20
+    assert got["below_swc"].any() or got["above_swc"].any()  # the check sees both states
+    assert got["ln_rmssd_swc_low"].notna().sum() > 20
 
 
 def test_baselines_never_zero_fill_and_absent_days_count_as_missing():

@@ -36,7 +36,7 @@ def test_small_demo_writes_every_output(small_run):
     daily = pd.read_csv(out / "daily" / "daily.csv")
     assert sorted(daily["subject"].unique()) == ["R01", "R02", "R03"]
     assert len(daily) == 3 * 21  # every subject gets every date, missing days included
-    assert {"ln_rmssd_7d", "ln_rmssd_band_low", "below_band"} <= set(daily.columns)
+    assert {"ln_rmssd_7d", "ln_rmssd_swc_low", "below_swc"} <= set(daily.columns)
     assert (out / "daily" / "store.h5").stat().st_size > 10_000
     assert (out / "daily" / "errors.csv").is_file()
     assert (out / "lab" / "lab_segments.csv").is_file()
@@ -95,16 +95,16 @@ def test_altitude_camp_puts_most_athletes_below_band(full_run):
     daily = pd.read_csv(out / "daily" / "daily.csv", parse_dates=["date"])
     # second week of the camp (weeks 6-7 are 9-22 February 2026 in the squad's calendar)
     camp = daily[(daily["date"] >= "2026-02-16") & (daily["date"] <= "2026-02-22")]
-    share = camp.groupby("subject")["below_band"].mean()
+    share = camp.groupby("subject")["below_swc"].mean()
     assert (share > 0.5).sum() >= 6, share
     # ... and raises resting heart rate above its band for most of them
-    hr_share = camp.groupby("subject")["hr_above_band"].mean()
+    hr_share = camp.groupby("subject")["hr_above_swc"].mean()
     assert (hr_share > 0.5).sum() >= 6, hr_share
     # the two athletes the story makes non-responders stay mostly inside their band
     assert share[["R02", "R07"]].max() < 0.5
     # the baseline weeks are mostly inside the band
     base = daily[(daily["date"] >= "2026-01-19") & (daily["date"] <= "2026-02-01")]
-    assert base["below_band"].mean() < 0.2
+    assert base["below_swc"].mean() < 0.2
 
 
 def test_frequent_ectopy_athlete_gets_the_caution(full_run):

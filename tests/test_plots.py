@@ -7,7 +7,7 @@ import pandas as pd
 import pytest
 
 import rrkit
-from rrkit.plots import athlete_trend, band_position, recording_diagnostic, squad_overview
+from rrkit.plots import athlete_trend, swc_position, recording_diagnostic, squad_overview
 
 PNG_MAGIC = b"\x89PNG\r\n\x1a\n"
 
@@ -48,9 +48,9 @@ def _daily(n_days=70, subjects=("A1", "B2", "C3"), seed=3):
         okv = df["ln_rmssd"].where(df["quality"] == "ok")
         df["ln_rmssd_7d"] = okv.rolling(7, min_periods=3).mean()
         base = okv.iloc[:28]
-        df["ln_rmssd_band_low"] = base.mean() - 0.5 * base.std()
-        df["ln_rmssd_band_high"] = base.mean() + 0.5 * base.std()
-        df["below_band"] = pd.array(df["ln_rmssd_7d"] < df["ln_rmssd_band_low"], dtype="boolean")
+        df["ln_rmssd_swc_low"] = base.mean() - 0.5 * base.std()
+        df["ln_rmssd_swc_high"] = base.mean() + 0.5 * base.std()
+        df["below_swc"] = pd.array(df["ln_rmssd_7d"] < df["ln_rmssd_swc_low"], dtype="boolean")
         rows.append(df)
     return pd.concat(rows, ignore_index=True)
 
@@ -58,8 +58,8 @@ def _daily(n_days=70, subjects=("A1", "B2", "C3"), seed=3):
 def test_band_position_edges():
     # hand-computable: band 4.0-4.2 has its middle at 4.1 and half-width 0.1
     df = pd.DataFrame({"ln_rmssd_7d": [4.0, 4.1, 4.2, 3.9, np.nan],
-                       "ln_rmssd_band_low": 4.0, "ln_rmssd_band_high": 4.2})
-    np.testing.assert_allclose(band_position(df).to_numpy(), [-1, 0, 1, -2, np.nan], atol=1e-12)
+                       "ln_rmssd_swc_low": 4.0, "ln_rmssd_swc_high": 4.2})
+    np.testing.assert_allclose(swc_position(df).to_numpy(), [-1, 0, 1, -2, np.nan], atol=1e-12)
 
 
 def test_athlete_trend_png(tmp_path):

@@ -104,7 +104,7 @@ def _wake(text: str) -> tuple[str, str]:
 #: settings names -> the options that set them, so a usage error names what the user typed
 _OPTION_OF = {"rolling_min_days": "--min-days", "week_min_days": "--min-days",
               "baseline_days": "--baseline-days", "baseline_min_days": "--baseline-min",
-              "band_sd": "--band-sd", "first_date": "--from", "last_date": "--to"}
+              "swc_sd": "--swc-sd", "first_date": "--from", "last_date": "--to"}
 
 
 @contextlib.contextmanager
@@ -162,7 +162,7 @@ def _command_line() -> list[str]:
               help="ok days the long baseline needs before it is defined.")
 @click.option("--min-days", type=int, default=3, show_default=True,
               help="ok days a 7-day value and a weekly value need.")
-@click.option("--band-sd", type=float, default=0.5, show_default=True,
+@click.option("--swc-sd", type=float, default=0.5, show_default=True,
               help="Half-width of the normal band in baseline SDs.")
 @click.option("--from", "first_date", help="First date of the table (YYYY-MM-DD).")
 @click.option("--to", "last_date", help="Last date of the table (YYYY-MM-DD).")
@@ -171,7 +171,7 @@ def _command_line() -> list[str]:
 @click.option("--progress/--no-progress", default=None,
               help="Progress bar (default: on a terminal for runs of more than 20 files).")
 def command(folder, outdir, manifest, pattern, window, tz, wake, pick, clean_method,
-            baseline_days, baseline_min, min_days, band_sd, first_date, last_date, jobs,
+            baseline_days, baseline_min, min_days, swc_sd, first_date, last_date, jobs,
             progress) -> int:
     """One row per athlete per day from a folder of recordings, with baselines and flags.
 
@@ -192,7 +192,7 @@ def command(folder, outdir, manifest, pattern, window, tz, wake, pick, clean_met
         raise InputError(f"--jobs must be at least 1; got {jobs}")
     with _as_options():
         baselines = BaselineSettings(rolling_min_days=min_days, baseline_days=baseline_days,
-                                     baseline_min_days=baseline_min, band_sd=band_sd,
+                                     baseline_min_days=baseline_min, swc_sd=swc_sd,
                                      week_min_days=min(min_days, 7))
         settings = DailySettings(window=window, tz=tz, wake_start=wake_start, wake_end=wake_end,
                                  pick=pick, clean=clean_method, baselines=baselines)
@@ -216,9 +216,9 @@ def command(folder, outdir, manifest, pattern, window, tz, wake, pick, clean_met
         for line in ectopy_lines(table):
             click.echo(line)
     if summary.last_date is not None:
-        if summary.below_band:
+        if summary.below_swc:
             click.echo(f"7-day ln-RMSSD below the band on {summary.last_date}: "
-                       + ", ".join(summary.below_band))
+                       + ", ".join(summary.below_swc))
         else:
             click.echo(f"7-day ln-RMSSD below the band on {summary.last_date}: nobody")
         click.echo(CAUTION)

@@ -268,7 +268,7 @@ def _figures(folder, out, run, *, load, meta, ectopy, agree, note):
 def _since(table, subject: str) -> str | None:
     """First date of the current unbroken run of below-band days for a subject."""
     d = table[table["subject"].astype(str) == subject].sort_values("date")
-    flags = d["below_band"].fillna(False).astype(bool).to_numpy()
+    flags = d["below_swc"].fillna(False).astype(bool).to_numpy()
     if not flags.size or not flags[-1]:
         return None
     i = flags.size - 1
@@ -277,11 +277,11 @@ def _since(table, subject: str) -> str | None:
     return str(d["date"].iloc[i])
 
 
-def below_band_episodes(table) -> dict[str, list[tuple[str, str]]]:
+def below_swc_episodes(table) -> dict[str, list[tuple[str, str]]]:
     """Per subject, the (first, last) dates of each run of consecutive below-band days."""
     out: dict[str, list[tuple[str, str]]] = {}
     for subject, d in table.sort_values("date").groupby("subject"):
-        flags = d["below_band"].fillna(False).astype(bool).to_numpy()
+        flags = d["below_swc"].fillna(False).astype(bool).to_numpy()
         dates = [str(x) for x in d["date"]]
         runs, start = [], None
         for i, f in enumerate(flags):
@@ -310,7 +310,7 @@ def _summary(run, *, lab, agree, ectopy, figures, out, meta, folder) -> str:
     lines.append(f"  files: {run.counts_line()}")
     # below band this week
     week_start = last - __import__("datetime").timedelta(days=last.weekday())
-    this_week = table[(table["date"] >= week_start) & table["below_band"].fillna(False)]
+    this_week = table[(table["date"] >= week_start) & table["below_swc"].fillna(False)]
     lines.append("")
     lines.append(f"Below their ln-RMSSD band this week (from {week_start}):")
     names = sorted(this_week["subject"].astype(str).unique())
@@ -319,11 +319,11 @@ def _summary(run, *, lab, agree, ectopy, figures, out, meta, folder) -> str:
             lines.append(f"  {s}: below band since {_since(table, s) or 'earlier this week'}")
     else:
         lines.append("  nobody")
-    hr_up = table[(table["date"] >= week_start) & table["hr_above_band"].fillna(False)]
+    hr_up = table[(table["date"] >= week_start) & table["hr_above_swc"].fillna(False)]
     hr_names = sorted(hr_up["subject"].astype(str).unique())
     lines.append("Resting heart rate (7-day mean) above its band this week: "
                  + (", ".join(hr_names) if hr_names else "nobody"))
-    episodes = below_band_episodes(table)
+    episodes = below_swc_episodes(table)
     long_runs = {s: [r for r in runs if r[0] != r[1]] for s, runs in episodes.items()}
     lines.append("Every run of 7-day ln-RMSSD below the band this season (first - last day):")
     for s in sorted(long_runs):

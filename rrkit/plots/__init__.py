@@ -16,7 +16,7 @@ it when given a path.
 
 from ._agreement import bland_altman
 from ._diagnostic import recording_diagnostic
-from ._trend import athlete_trend, band_position, squad_overview
+from ._trend import athlete_trend, swc_position, squad_overview
 
-__all__ = ["athlete_trend", "band_position", "bland_altman", "recording_diagnostic",
+__all__ = ["athlete_trend", "swc_position", "bland_altman", "recording_diagnostic",
            "squad_overview"]

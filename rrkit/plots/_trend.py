@@ -7,11 +7,11 @@ import numpy as np
 from ..errors import InputError
 from ._style import DIVERGING_CMAP, OKABE_ITO, new_figure, save
 
-__all__ = ["athlete_trend", "band_position", "squad_overview"]
+__all__ = ["athlete_trend", "swc_position", "squad_overview"]
 
 _NEEDED = ("subject", "date", "quality", "ln_rmssd", "ln_rmssd_7d")
 _LIMIT = 3.0  # colour scale saturates at 3 half-bands from the middle
-_BAND_NAMES = (("ln_rmssd_band_low", "ln_rmssd_band_high"), ("band_low", "band_high"),
+_BAND_NAMES = (("ln_rmssd_swc_low", "ln_rmssd_swc_high"), ("band_low", "band_high"),
                ("ln_rmssd_band_lo", "ln_rmssd_band_hi"))
 
 
@@ -23,7 +23,7 @@ def _check(daily, needed=_NEEDED) -> None:
                          hint=f"columns found: {list(daily.columns)[:12]}...")
 
 
-def _band_cols(daily) -> tuple[str, str]:
+def _swc_cols(daily) -> tuple[str, str]:
     for lo, hi in _BAND_NAMES:
         if lo in daily.columns and hi in daily.columns:
             return lo, hi
@@ -31,13 +31,13 @@ def _band_cols(daily) -> tuple[str, str]:
                      + ", ".join(f"{lo}/{hi}" for lo, hi in _BAND_NAMES))
 
 
-def band_position(daily):
+def swc_position(daily):
     """Where each day's 7-day ln-RMSSD mean sits in its athlete's normal band.
 
     Returns a Series: 0 = the middle of the band, -1 its lower edge, +1 its upper edge (below
     -1 means below the band). NaN where the 7-day mean or the band is not defined.
     """
-    lo_c, hi_c = _band_cols(daily)
+    lo_c, hi_c = _swc_cols(daily)
     lo = daily[lo_c].astype(float)
     hi = daily[hi_c].astype(float)
     mid = (lo + hi) / 2.0
@@ -98,7 +98,7 @@ def athlete_trend(daily, subject: str, path=None, *, load=None, phases=None,
     import pandas as pd
 
     _check(daily)
-    lo_c, hi_c = _band_cols(daily)
+    lo_c, hi_c = _swc_cols(daily)
     d = daily[daily["subject"].astype(str) == str(subject)].copy()
     if d.empty:
         raise InputError(f"subject {subject!r} is not in the daily table",
@@ -143,8 +143,8 @@ def athlete_trend(daily, subject: str, path=None, *, load=None, phases=None,
                                                       else ")"))
     ax.plot(d["date"], d["ln_rmssd_7d"].astype(float), color=OKABE_ITO["black"], lw=1.8,
             label="7-day mean", zorder=4)
-    if "below_band" in d.columns:
-        below = d["below_band"].fillna(False).astype(bool)
+    if "below_swc" in d.columns:
+        below = d["below_swc"].fillna(False).astype(bool)
         if below.any():
             ax.scatter(d.loc[below, "date"], d.loc[below, "ln_rmssd_7d"], s=26,
                        color=OKABE_ITO["vermillion"], marker="s", zorder=5,
@@ -179,7 +179,7 @@ def squad_overview(daily, path=None, *, phases=None, title: str | None = None, d
     """The squad at a glance: one row per athlete, one column per day.
 
     Each cell is the athlete's 7-day ln-RMSSD mean relative to their normal band (see
-    `band_position`): white inside the band's middle, blue above, red below; the band edges
+    `swc_position`): white inside the band's middle, blue above, red below; the band edges
     are at -1 and +1 (the colours saturate at -3 and +3). Days whose 7-day mean is not
     defined are grey. A dot marks the days the daily table flags as below the band.
 
@@ -206,7 +206,7 @@ def squad_overview(daily, path=None, *, phases=None, title: str | None = None, d
     _check(daily)
     d = daily.copy()
     d["date"] = pd.to_datetime(d["date"])
-    d["_pos"] = band_position(d)
+    d["_pos"] = swc_position(d)
     grid = d.pivot_table(index="subject", columns="date", values="_pos", aggfunc="mean",
                          dropna=False)
     subjects = sorted(d["subject"].astype(str).unique())
@@ -226,8 +226,8 @@ def squad_overview(daily, path=None, *, phases=None, title: str | None = None, d
 
     handles = [Patch(facecolor="#DDDDDD", edgecolor="white",
                      label="no 7-day mean, or band not defined yet (baseline building up)")]
-    if "below_band" in d.columns:
-        b = d[d["below_band"].fillna(False).astype(bool)]
+    if "below_swc" in d.columns:
+        b = d[d["below_swc"].fillna(False).astype(bool)]
         xi = (b["date"] - days[0]).dt.days.to_numpy()
         yi = np.array([subjects.index(str(s)) for s in b["subject"]], dtype=float)
         if len(b):
