@@ -73,7 +73,8 @@ _TRUE = {"1", "true", "yes", "y", "x"}
 class BaselineSettings:
     """How the rolling values, the long baseline, the band and the weekly values are formed.
 
-    Every window is counted in calendar days and ends on (includes) the row's own date.
+    Every window is counted in calendar days. The rolling window ends on (includes) the row's
+    own date; the long baseline ends ``baseline_lag_days`` days earlier.
 
     Parameters
     ----------
@@ -90,8 +91,12 @@ class BaselineSettings:
         ``ok`` days needed in the long baseline before its mean, SD and band are defined
         (default 14, rrkit's choice: two weeks of daily recordings).
     baseline_lag_days : int
-        The long baseline ends this many days before the row's date (default 0: it ends on the
-        date itself, as the rolling window does). With 7 the current week is left out.
+        The long baseline ends this many days before the row's date (default 7: it ends on
+        the day before the current 7-day window starts). With the baseline ending on the date
+        itself (0), a sustained fall of ln-RMSSD enters the baseline as it happens and drags
+        the band down with it, so the 7-day mean it is compared with seldom leaves the band;
+        leaving the current week out keeps the two apart (rrkit's choice, matching the
+        default ``rolling_days``).
     swc_sd : float
         Half-width of the normal band in baseline SDs: band = mean ± swc_sd × SD (default 0.5,
         the smallest-worthwhile-change convention common in sports science).
@@ -104,7 +109,7 @@ class BaselineSettings:
     rolling_min_days: int = 3
     baseline_days: int = 60
     baseline_min_days: int = 14
-    baseline_lag_days: int = 0
+    baseline_lag_days: int = 7
     swc_sd: float = 0.5
     week_min_days: int = 3
 

@@ -36,8 +36,9 @@ def _fixture_table():
 
 
 def test_rolling_fixture_from_references():
+    # the fixture's band is the one of a baseline that ends on the date itself (no lag)
     out = add_baselines(_fixture_table(), settings=BaselineSettings(
-        baseline_days=7, baseline_min_days=3))
+        baseline_days=7, baseline_min_days=3, baseline_lag_days=0))
     day7, day10 = out.iloc[6], out.iloc[9]
     # REFERENCES.md section 7 (computed): day 7 ln mean 4.089166, SD 0.110316 (ddof=1),
     # CV 2.6978 %; day 10 mean 4.091087, CV 2.8156 %; band from days 1-7 4.034008-4.144324
@@ -119,7 +120,8 @@ def _independent(table: pd.DataFrame, b: BaselineSettings) -> pd.DataFrame:
 
 
 @pytest.mark.parametrize("b", [
-    BaselineSettings(baseline_days=21, baseline_min_days=10),
+    BaselineSettings(baseline_days=21, baseline_min_days=10, baseline_lag_days=0),
+    BaselineSettings(baseline_days=21, baseline_min_days=10),  # the default lag of 7 days
     BaselineSettings(baseline_days=14, baseline_min_days=7, baseline_lag_days=7, swc_sd=1.0,
                      rolling_min_days=4, week_min_days=4),
 ])
@@ -139,6 +141,28 @@ def test_baselines_equal_independent_computation(b):
         assert g == w, col
     assert got["below_swc"].any() or got["above_swc"].any()  # the check sees both states
     assert got["ln_rmssd_swc_low"].notna().sum() > 20
+
+
+def test_default_baseline_lag_keeps_a_sustained_fall_below_the_swc_band():
+    """Simulation with a known truth: 41 steady days (ln-RMSSD 4.2, SD 0.05), then a fall of
+    0.15 ln units held for 20 days, against a 28-day baseline. A baseline ending on the date
+    takes the fall in as it happens and the band follows it down; the default baseline, ending
+    the day before the current 7-day window, keeps the fall below the band."""
+    rng = np.random.default_rng(11)
+    n = 61
+    ln = 4.2 + rng.normal(0.0, 0.05, n)
+    ln[41:] -= 0.15
+    t = pd.DataFrame({"subject": "A", "date": [D0 + dt.timedelta(days=i) for i in range(n)],
+                      "quality": "ok", "ln_rmssd": ln, "mean_hr_bpm": 50.0})
+    assert BaselineSettings().baseline_lag_days == 7
+    lagged = add_baselines(t, settings=BaselineSettings(baseline_days=28))
+    chasing = add_baselines(t, settings=BaselineSettings(baseline_days=28, baseline_lag_days=0))
+    fall = slice(47, n)  # from the first day whose 7-day window lies wholly in the fall
+    assert lagged["below_swc"].iloc[fall].all()
+    assert not chasing["below_swc"].iloc[fall].all()  # the chasing band lets it back in
+    # the lagged baseline on day 47 is days 13-40 exactly: the steady stretch only
+    assert lagged["ln_rmssd_base_mean"].iloc[47] == pytest.approx(ln[13:41].mean(), rel=1e-12)
+    assert chasing["ln_rmssd_base_mean"].iloc[47] == pytest.approx(ln[20:48].mean(), rel=1e-12)
 
 
 def test_baselines_never_zero_fill_and_absent_days_count_as_missing():

@@ -102,9 +102,16 @@ def test_altitude_camp_puts_most_athletes_below_band(full_run):
     assert (hr_share > 0.5).sum() >= 6, hr_share
     # the two athletes the story makes non-responders stay mostly inside their band
     assert share[["R02", "R07"]].max() < 0.5
-    # the baseline weeks are mostly inside the band
+    # the baseline weeks are mostly inside the band where it is defined: with the baseline
+    # ending 7 days before each date (the default lag) it needs 14 ok days by then, so only
+    # the phase's last week has a band, resting on about two weeks. A 7-day mean of
+    # independent days has an SD of SD/sqrt(7) = 0.38 SD, and a 14-day baseline mean one of
+    # 0.27 SD, so a steady athlete falls below mean - 0.5 SD by chance on about 1 day in 7
+    # (normal tail at -0.5 / sqrt(0.38^2 + 0.27^2) = -1.08 SD: 14 %): allow up to a third.
     base = daily[(daily["date"] >= "2026-01-19") & (daily["date"] <= "2026-02-01")]
-    assert base["below_swc"].mean() < 0.2
+    defined = base["below_swc"].dropna().astype(bool)
+    assert len(defined) >= 40
+    assert defined.mean() < 1 / 3
 
 
 def test_frequent_ectopy_athlete_gets_the_caution(full_run):

@@ -104,6 +104,7 @@ def _wake(text: str) -> tuple[str, str]:
 #: settings names -> the options that set them, so a usage error names what the user typed
 _OPTION_OF = {"rolling_min_days": "--min-days", "week_min_days": "--min-days",
               "baseline_days": "--baseline-days", "baseline_min_days": "--baseline-min",
+              "baseline_lag_days": "--baseline-lag",
               "swc_sd": "--swc-sd", "first_date": "--from", "last_date": "--to"}
 
 
@@ -157,7 +158,12 @@ def _command_line() -> list[str]:
 @click.option("--clean", "clean_method", type=click.Choice(["drr", "median", "mad", "none"]),
               default="drr", show_default=True, help="Artifact detection method.")
 @click.option("--baseline-days", type=int, default=60, show_default=True,
-              help="Calendar days of the long baseline (ending on each date).")
+              help="Calendar days of the long baseline (ending --baseline-lag days before each "
+                   "date).")
+@click.option("--baseline-lag", type=int, default=7, show_default=True,
+              help="Days between the end of the long baseline and the date: 7 leaves the "
+                   "current 7-day window out, so a sustained fall does not drag the baseline "
+                   "down with it; 0 ends the baseline on the date itself.")
 @click.option("--baseline-min", type=int, default=14, show_default=True,
               help="ok days the long baseline needs before it is defined.")
 @click.option("--min-days", type=int, default=3, show_default=True,
@@ -171,7 +177,7 @@ def _command_line() -> list[str]:
 @click.option("--progress/--no-progress", default=None,
               help="Progress bar (default: on a terminal for runs of more than 20 files).")
 def command(folder, outdir, manifest, pattern, window, tz, wake, pick, clean_method,
-            baseline_days, baseline_min, min_days, swc_sd, first_date, last_date, jobs,
+            baseline_days, baseline_lag, baseline_min, min_days, swc_sd, first_date, last_date, jobs,
             progress) -> int:
     """One row per athlete per day from a folder of recordings, with baselines and flags.
 
@@ -192,7 +198,8 @@ def command(folder, outdir, manifest, pattern, window, tz, wake, pick, clean_met
         raise InputError(f"--jobs must be at least 1; got {jobs}")
     with _as_options():
         baselines = BaselineSettings(rolling_min_days=min_days, baseline_days=baseline_days,
-                                     baseline_min_days=baseline_min, swc_sd=swc_sd,
+                                     baseline_min_days=baseline_min,
+                                     baseline_lag_days=baseline_lag, swc_sd=swc_sd,
                                      week_min_days=min(min_days, 7))
         settings = DailySettings(window=window, tz=tz, wake_start=wake_start, wake_end=wake_end,
                                  pick=pick, clean=clean_method, baselines=baselines)
