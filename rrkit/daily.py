@@ -7,7 +7,7 @@ days without a usable one as ``missing``, and adds the baseline columns (`add_ba
 Baselines use only days whose quality is ``ok``; flagged, rejected and missing days are shown
 but never enter a mean, and a gap is never filled with zero or carried forward.
 
-rrkit is not a medical device and makes no diagnosis. A day outside an athlete's band is a
+rrkit is not a medical device and makes no diagnosis. A day outside an athlete's SWC band is a
 prompt to look at the data and the context; training decisions rest with qualified staff.
 
 References
@@ -98,8 +98,8 @@ class BaselineSettings:
         leaving the current week out keeps the two apart (rrkit's choice, matching the
         default ``rolling_days``).
     swc_sd : float
-        Half-width of the normal band in baseline SDs: band = mean ± swc_sd × SD (default 0.5,
-        the smallest-worthwhile-change convention common in sports science).
+        Half-width of the smallest-worthwhile-change (SWC) band in baseline SDs: band = mean
+        ± swc_sd × SD (default 0.5, the sports-science SWC convention; common practice).
     week_min_days : int
         ``ok`` days needed in a calendar week (Monday to Sunday) before a weekly mean is given
         (default 3, Plews et al. 2014).

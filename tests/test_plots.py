@@ -63,18 +63,60 @@ def test_band_position_edges():
 
 
 def test_athlete_trend_png(tmp_path):
+    from rrkit.daily import BaselineSettings
+
     daily = _daily()
     load = pd.DataFrame({"date": pd.to_datetime(daily["date"]).astype(str),
                          "subject": daily["subject"], "load_au": 400.0})
     out = tmp_path / "trend.png"
     fig = athlete_trend(daily, "B2", out, load=load,
                         phases=[("base", "2026-01-05", "2026-02-01"),
-                                ("block", "2026-02-02", "2026-03-15")])
+                                ("block", "2026-02-02", "2026-03-15")],
+                        baselines=BaselineSettings(baseline_days=28))
     assert_png(out)
-    labels = fig.axes[0].get_legend_handles_labels()[1]
-    assert "7-day mean below band" in labels  # B2's lowered fortnight is marked
+    ax, ax_z = fig.axes[0], fig.axes[1]
+    labels = ax.get_legend_handles_labels()[1]
+    assert "7-day mean below the SWC band" in labels  # B2's lowered fortnight is marked
     assert "rejected / failed file" in labels
     assert "no recording" in labels
+    # the band is the smallest worthwhile change, its baseline and lag named in the legend,
+    # drawn hatched in grey (no fill colour)
+    swc = [lab for lab in labels if lab.startswith("SWC band")]
+    assert swc == ["SWC band: baseline mean ± 0.5 SD (28-day baseline ending 7 days before "
+                   "each date)"]
+    band = [c for c in ax.collections if c.get_label() == swc[0]][0]
+    assert band.get_hatch() == "////"
+    assert band.get_facecolor().size == 0 or band.get_facecolor()[0][3] == 0
+    # lower panel: the 7-day mean's distance from the baseline mean in baseline SDs
+    d = daily[daily["subject"] == "B2"]
+    mid = (d["ln_rmssd_swc_low"] + d["ln_rmssd_swc_high"]) / 2
+    sd = (d["ln_rmssd_swc_high"] - d["ln_rmssd_swc_low"])  # band = mean +/- 0.5 SD: width 1 SD
+    want = ((d["ln_rmssd_7d"] - mid) / sd).to_numpy()
+    np.testing.assert_allclose(ax_z.lines[-1].get_ydata(), want, rtol=1e-12)
+    assert np.nanmin(want[-7:]) < -2  # the lowered fortnight is far below
+    # nobody cautioned: no caution under the title
+    assert "caution" not in fig._suptitle.get_text()
+
+
+def test_athlete_trend_shows_the_premature_beat_caution_and_off_scale_days():
+    daily = _daily()
+    b2 = daily.index[daily["subject"] == "B2"]
+    daily["caution"] = ""
+    daily.loc[b2[[30, 31, 40]], "caution"] = "4 premature beats (48 per hour, above 30 ...)"
+    daily.loc[b2[9], "caution"] = "9 premature beats"  # a missing day never counts
+    daily.loc[b2[50], ["quality", "ln_rmssd"]] = ["flagged", 7.0]  # far off the axis
+    fig = athlete_trend(daily, "B2")
+    head = fig._suptitle.get_text()
+    measured = int((daily.loc[b2, "quality"] != "missing").sum())
+    assert f"the premature-beat caution on 3 of {measured} mornings" in head
+    assert "does not diagnose" in head and "clinician" in head
+    ax = fig.axes[0]
+    labels = ax.get_legend_handles_labels()[1]
+    assert "flagged day off scale (above)" in labels
+    off = [c for c in ax.collections if c.get_label() == "flagged day off scale (above)"][0]
+    assert off.get_offsets()[0][1] <= ax.get_ylim()[1]  # drawn at the edge, inside the axes
+    # another athlete's figure carries no caution
+    assert "caution" not in athlete_trend(daily, "A1")._suptitle.get_text()
 
 
 def test_squad_overview_png(tmp_path):

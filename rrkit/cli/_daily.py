@@ -22,7 +22,7 @@ from ..errors import InputError
 
 ECTOPY_CAUTION = ("rrkit does not diagnose; frequent premature beats are a matter for a "
                   "clinician, please have these recordings reviewed by qualified staff.")
-CAUTION = ("rrkit is not a medical device and makes no diagnosis; a value outside the band is "
+CAUTION = ("rrkit is not a medical device and makes no diagnosis; a value outside the SWC band is "
            "a prompt to look at the data and the context. Training decisions rest with "
            "qualified staff.")
 
@@ -169,7 +169,7 @@ def _command_line() -> list[str]:
 @click.option("--min-days", type=int, default=3, show_default=True,
               help="ok days a 7-day value and a weekly value need.")
 @click.option("--swc-sd", type=float, default=0.5, show_default=True,
-              help="Half-width of the normal band in baseline SDs.")
+              help="Half-width of the smallest-worthwhile-change (SWC) band in baseline SDs.")
 @click.option("--from", "first_date", help="First date of the table (YYYY-MM-DD).")
 @click.option("--to", "last_date", help="Last date of the table (YYYY-MM-DD).")
 @click.option("--jobs", type=int, default=None,
@@ -224,10 +224,10 @@ def command(folder, outdir, manifest, pattern, window, tz, wake, pick, clean_met
             click.echo(line)
     if summary.last_date is not None:
         if summary.below_swc:
-            click.echo(f"7-day ln-RMSSD below the band on {summary.last_date}: "
+            click.echo(f"7-day ln-RMSSD below the SWC band on {summary.last_date}: "
                        + ", ".join(summary.below_swc))
         else:
-            click.echo(f"7-day ln-RMSSD below the band on {summary.last_date}: nobody")
+            click.echo(f"7-day ln-RMSSD below the SWC band on {summary.last_date}: nobody")
         click.echo(CAUTION)
     click.echo(summary.counts_line())
     return summary.exit_code

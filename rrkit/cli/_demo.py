@@ -312,20 +312,20 @@ def _summary(run, *, lab, agree, ectopy, figures, out, meta, folder) -> str:
     week_start = last - __import__("datetime").timedelta(days=last.weekday())
     this_week = table[(table["date"] >= week_start) & table["below_swc"].fillna(False)]
     lines.append("")
-    lines.append(f"Below their ln-RMSSD band this week (from {week_start}):")
+    lines.append(f"Below their ln-RMSSD SWC band this week (from {week_start}):")
     names = sorted(this_week["subject"].astype(str).unique())
     if names:
         for s in names:
-            lines.append(f"  {s}: below band since {_since(table, s) or 'earlier this week'}")
+            lines.append(f"  {s}: below the SWC band since {_since(table, s) or 'earlier this week'}")
     else:
         lines.append("  nobody")
     hr_up = table[(table["date"] >= week_start) & table["hr_above_swc"].fillna(False)]
     hr_names = sorted(hr_up["subject"].astype(str).unique())
-    lines.append("Resting heart rate (7-day mean) above its band this week: "
+    lines.append("Resting heart rate (7-day mean) above its SWC band this week: "
                  + (", ".join(hr_names) if hr_names else "nobody"))
     episodes = below_swc_episodes(table)
     long_runs = {s: [r for r in runs if r[0] != r[1]] for s, runs in episodes.items()}
-    lines.append("Every run of 7-day ln-RMSSD below the band this season (first - last day):")
+    lines.append("Every run of 7-day ln-RMSSD below the SWC band this season (first - last day):")
     for s in sorted(long_runs):
         if long_runs[s]:
             lines.append(f"  {s}: " + "; ".join(f"{a} - {b}" for a, b in long_runs[s]))

@@ -2,8 +2,9 @@
 
 - `recording_diagnostic`: tachogram with every artifact class and the corrected series, the
   spectrum with its bands and powers, and the Poincaré plot with SD1/SD2;
-- `athlete_trend`: daily ln-RMSSD, its 7-day mean, the normal band, flagged and rejected days
-  and the training load;
+- `athlete_trend`: daily ln-RMSSD, its 7-day mean, the smallest-worthwhile-change (SWC) band
+  and the distance from baseline in SDs, flagged and rejected days, the training load, and the
+  premature-beat caution where the athlete's mornings carry it;
 - `bland_altman`: differences of device-reported values against recomputed ones, with bias,
   limits of agreement and their confidence intervals (Bland & Altman 1986);
 - `squad_overview`: one row per athlete, one column per day, the 7-day mean relative to the
