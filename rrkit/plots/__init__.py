@@ -5,13 +5,15 @@
 - `athlete_trend`: daily ln-RMSSD, its 7-day mean, the smallest-worthwhile-change (SWC) band
   and the distance from baseline in SDs, flagged and rejected days, the training load, and the
   premature-beat caution where the athlete's mornings carry it;
-- `bland_altman`: differences of device-reported values against recomputed ones, with bias,
-  limits of agreement and their confidence intervals (Bland & Altman 1986);
+- `bland_altman`: differences of device-reported values against recomputed ones; bias and
+  limits of agreement in one ink told apart by dash, named in words with unit and confidence
+  interval, the intervals as brackets in the right margin (Bland & Altman 1986);
 - `squad_overview`: one row per athlete, one column per day, the 7-day mean relative to the
   band.
 
-Colours are colour-blind safe (Okabe-Ito, and ColorBrewer's red-blue for the overview) and each
-class also has its own marker. Every function returns the `matplotlib.figure.Figure` and writes
+Lines that are compared are drawn in rrkit's neutral inks and told apart by dash and width;
+colours, where a class needs one, are colour-blind safe (Okabe-Ito, and ColorBrewer's red-blue
+for the overview) and each class also has its own marker. Every function returns the `matplotlib.figure.Figure` and writes
 it when given a path.
 """
 
