@@ -138,22 +138,64 @@ def test_trend_unknown_subject_and_bad_table(tmp_path):
 
 
 def test_recording_diagnostic_png(tmp_path):
+    from rrkit.plots import audit_rows
     from rrkit.simulate import inject_artifacts, simulate_rr
 
     rec = simulate_rr(duration_s=360, seed=5)
-    bad, _truth = inject_artifacts(rec, counts={"missed": 2, "ectopic": 2}, seed=1)
+    bad, truth = inject_artifacts(rec, counts={"missed": 2, "ectopic": 2, "extra": 2}, seed=1)
     result = rrkit.clean(bad)
     out = tmp_path / "diag.png"
     fig = recording_diagnostic(result, out, window_s=(60.0, 360.0))
     assert_png(out, min_px=(600, 900))
-    labels = fig.axes[0].get_legend_handles_labels()[1]
-    assert any(lab.startswith("missed beat") for lab in labels)
-    assert any(lab.startswith("ectopic") for lab in labels)
-    texts = " ".join(t.get_text() for t in fig.axes[1].texts)
-    assert "LF" in texts
-    assert "HF" in texts
-    assert "ms²" in texts
-    assert "SD1" in " ".join(t.get_text() for t in fig.axes[2].texts)
+    ax_t, ax_a, ax_p, ax_tab, ax_q = fig.axes
+    # the audit strip: one row per class, counted in beats as the simulation planted them
+    # (ground truth of inject_artifacts: 2 premature beats, 2 missed, 2 extra)
+    rows = {r.label: r for r in audit_rows(result)}
+    assert rows["ectopic"].n_beats == truth.premature_beats.size == 2
+    assert rows["missed"].n_beats == truth.events["missed"].size == 2
+    assert rows["extra"].n_beats == truth.events["extra"].size == 2
+    strip = [t.get_text() for t in ax_a.texts]
+    assert strip == ["2 premature beats (4 intervals)", "2 missed beats restored (2 intervals split)",
+                     "2 extra beats removed (4 intervals merged)"]
+    np.testing.assert_allclose(sorted(rows["ectopic"].times_s),
+                               sorted(bad.beat_times_s[truth.premature_beats]))
+    # the spectrum is an outline (nothing filled) with the band edges marked
+    values = rrkit.metrics(result.window(60.0, 360.0))
+    assert not ax_p.collections and not ax_p.patches[1:]
+    edges = sorted(round(line.get_xdata()[0], 4) for line in ax_p.get_lines()[1:])
+    assert edges == [0.0033, 0.04, 0.15, 0.4]
+    # band powers in the side table, the same numbers as rrkit.metrics
+    table = [t.get_text() for t in ax_tab.texts]
+    assert f"{values['lf_ms2']:,.0f}" in table and f"{values['hf_ms2']:,.0f}" in table
+    assert "ms²" in table and "0.04-0.15" in table
+    assert "SD1" in ax_q.get_title(loc="left")
+    # the legend sits outside every data area
+    legend = ax_a.get_legend()
+    assert legend is not None
+    from matplotlib.backends.backend_agg import FigureCanvasAgg
+
+    canvas = FigureCanvasAgg(fig)
+    canvas.draw()
+    renderer = canvas.get_renderer()
+    box = legend.get_window_extent(renderer)
+    for ax in (ax_t, ax_a, ax_p, ax_q):
+        assert not box.overlaps(ax.get_window_extent(renderer))
+    labels = [t.get_text() for t in legend.get_texts()]
+    assert "analysis window 60-360 s" in labels
+
+
+def test_recording_diagnostic_marks_values_off_scale():
+    from rrkit.simulate import simulate_rr
+
+    rec = simulate_rr(duration_s=200, seed=2)
+    rr = rec.rr_ms.copy()
+    rr[50] = 6000.0  # a dropout read as one long interval, far above the axis
+    fig = recording_diagnostic(rrkit.Recording.from_rr(rr))
+    ax_t = fig.axes[0]
+    labels = ax_t.get_legend_handles_labels()[1]
+    off = [lab for lab in labels if lab.startswith("off scale")]
+    assert off == ["off scale: 1 interval above the axis (up to 6000 ms)"]
+    assert ax_t.get_ylim()[1] < 6000.0
 
 
 def test_plot_command_diagnostic_and_trend(tmp_path):

@@ -18,8 +18,8 @@ it when given a path.
 """
 
 from ._agreement import bland_altman
-from ._diagnostic import recording_diagnostic
+from ._diagnostic import audit_rows, recording_diagnostic
 from ._trend import athlete_trend, swc_position, squad_overview
 
-__all__ = ["athlete_trend", "swc_position", "bland_altman", "recording_diagnostic",
+__all__ = ["athlete_trend", "audit_rows", "bland_altman", "recording_diagnostic", "swc_position",
            "squad_overview"]
