@@ -85,7 +85,7 @@ def test_events_with_breathing_rate(tmp_path):
     path.write_text("label,start_s,end_s,breaths_per_min\nrest,0,300,\npaced,300,600,6\n")
     df = rrkit.analyze(rec, windows=Events.from_csv(path), clean=None)
     assert df["window"].tolist() == ["rest", "paced"]
-    assert "stated breathing rate 0.100 Hz" in df["notes"].iloc[1]
+    assert "breathing at 0.100 Hz (6.0/min, given)" in df["notes"].iloc[1]
     assert df["resp_hz"].iloc[1] == pytest.approx(0.1, abs=0.012)
 
 

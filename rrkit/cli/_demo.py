@@ -295,6 +295,15 @@ def below_swc_episodes(table) -> dict[str, list[tuple[str, str]]]:
     return out
 
 
+def _breathing_remark(notes: str) -> str:
+    """The lab line's short remark on the breathing note of its window."""
+    if "breathing at " in notes and "below the HF band" in notes:
+        return "  (breathing given below the HF band: LF/HF holds respiratory power)"
+    if "dominant narrow peak" in notes:
+        return "  (a dominant slow peak: slow breathing or a ~0.1 Hz oscillation)"
+    return ""
+
+
 def _summary(run, *, lab, agree, ectopy, figures, out, meta, folder) -> str:
     table = run.table
     lines = []
@@ -363,8 +372,7 @@ def _summary(run, *, lab, agree, ectopy, figures, out, meta, folder) -> str:
         for r in lab.itertuples(index=False):
             lines.append(f"  {r.subject} {r.window:<18} HR {r.mean_hr_bpm:5.1f} bpm  "
                          f"RMSSD {r.rmssd_ms:6.1f} ms  LF/HF {r.lf_hf:5.2f}"
-                         + ("  (note: breathing below the HF band)" if "breath" in str(r.notes)
-                            else ""))
+                         + _breathing_remark(str(r.notes)))
     # agreement
     if agree is not None:
         lines.append("")
