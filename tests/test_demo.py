@@ -40,11 +40,15 @@ def test_small_demo_writes_every_output(small_run):
     assert (out / "daily" / "store.h5").stat().st_size > 10_000
     assert (out / "daily" / "errors.csv").is_file()
     assert (out / "lab" / "lab_segments.csv").is_file()
-    assert (out / "agreement" / "definition_search.csv").is_file()
+    # the agreement files carry the names `rrkit agree --search` gives them
+    from rrkit.cli._agree import OUTPUTS
+
+    for key in ("search", "stats", "pairs", "reference", "summary", "png"):
+        assert (out / "agreement" / OUTPUTS[key]).is_file(), OUTPUTS[key]
+    assert_png(out / "agreement" / OUTPUTS["png"])
     figs = sorted((out / "figures").glob("*.png"))
     names = {p.name for p in figs}
-    assert {"squad_overview.png", "trend_R01.png", "trend_R02.png", "trend_R03.png",
-            "bland_altman_nights.png"} <= names
+    assert {"squad_overview.png", "trend_R01.png", "trend_R02.png", "trend_R03.png"} <= names
     assert any(n.startswith("diagnostic_") for n in names)
     for p in figs:
         assert_png(p)

@@ -27,39 +27,17 @@ CAUTION = ("rrkit is not a medical device and makes no diagnosis; a value outsid
            "qualified staff.")
 
 
-_PREMATURE_N = re.compile(r"^\s*(\d+) premature beats")
-
-
-def _premature_dominates(row) -> bool:
-    """Whether a morning's caution rests on premature beats rather than on noise.
-
-    True when the morning is ``ok``, or when the premature beats' intervals (two per beat: the
-    early one and the pause after it, as the artifact stage labels them) make up at least half
-    of the morning's non-normal intervals (``artifact_pct`` of ``n_beats``). A caution whose
-    count cannot be read counts as resting on premature beats (the cautious side).
-    """
-    if str(row["quality"]) == "ok":
-        return True
-    m = _PREMATURE_N.match(str(row["caution"]))
-    try:
-        n_bad = float(row["artifact_pct"]) / 100.0 * float(row["n_beats"])
-    except (KeyError, TypeError, ValueError):
-        return True
-    if m is None or not n_bad > 0:
-        return True
-    return 2 * int(m.group(1)) >= 0.5 * n_bad
-
-
 def ectopy_lines(table) -> list[str]:
     """The premature-beat caution lines for the end of a run, one per kind of evidence.
 
-    The artifact stage attaches its caution to a morning when premature beats exceed a rate
-    (see `rrkit.CleanSettings`). In a 5-minute window three beats make that rate, and in a
-    noisy recording some beats labelled premature may be noise. So a subject is listed with
-    frequent premature beats when at least one cautioned morning is ``ok`` or has premature
-    beats for most of its non-normal intervals; subjects whose cautioned mornings are all
-    mostly noise are listed apart, as recordings to look at. Both lines defer to a clinician:
-    rrkit does not diagnose either way.
+    The days are counted by `rrkit._premature.caution_counts`, the one rule that the demo and
+    the trend figure use too: cautioned days (the day's morning window carries the artifact
+    stage's caution) out of the days with a morning read. In a 5-minute window three beats
+    make the caution's rate, and in a noisy recording some beats labelled premature may be
+    noise. So a subject is listed with frequent premature beats when at least one cautioned
+    morning is ``ok`` or has premature beats for most of its non-normal intervals; subjects
+    whose cautioned mornings are all mostly noise are listed apart, as recordings to look at.
+    Both lines defer to a clinician: rrkit does not diagnose either way.
 
     Parameters
     ----------
@@ -72,21 +50,20 @@ def ectopy_lines(table) -> list[str]:
     list of str
         Empty when no morning carries the caution.
     """
-    marked = table[table["caution"].fillna("").astype(str) != ""]
-    if not len(marked):
+    from .._premature import caution_counts
+
+    counts = caution_counts(table)
+    if not counts:
         return []
-    subject = marked["subject"].astype(str)
-    stands = marked.apply(_premature_dominates, axis=1).astype(bool)
-    firm = sorted(subject[stands].unique())
-    per = subject.value_counts()
+    firm = [c for c in counts.values() if c.firm]
+    rest = [c for c in counts.values() if not c.firm]
     lines = []
     if firm:
-        who = ", ".join(f"{s} on {int(per[s])} day(s)" for s in firm)
+        who = ", ".join(f"{c.subject} on {c.text()}" for c in firm)
         lines.append(f"frequent premature beats ({who}; see the caution column): "
                      + ECTOPY_CAUTION)
-    rest = sorted(set(subject) - set(firm))
     if rest:
-        who = ", ".join(f"{s} ({int(per[s])} day(s))" for s in rest)
+        who = ", ".join(f"{c.subject} ({c.text()})" for c in rest)
         lines.append(f"premature beats counted only on noisy mornings, among other artifacts: "
                      f"{who}; the count may come from noise. Look at these recordings and, if "
                      "in doubt, have them reviewed by a clinician; rrkit does not diagnose.")

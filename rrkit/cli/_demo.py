@@ -178,12 +178,21 @@ def _nights(folder: Path, out: Path, *, quiet: bool = True):
         nights.append(rec.replace(start=row["start"], subject=row["subject"]))
     search = search_definitions(reported, nights, metric="rmssd_ms",
                                 progress=None if not quiet else False)
+    from ._agree import OUTPUTS  # the same file names as `rrkit agree --search`
+
     agree_dir = out / "agreement"
     agree_dir.mkdir(parents=True, exist_ok=True)
-    _write_csv(agree_dir / "definition_search.csv", search.table)
+    _write_csv(agree_dir / OUTPUTS["search"], search.table)
     best = search.results[search.best]
-    _write_csv(agree_dir / "agreement_best.csv", best.table)
-    atomic_write_text(agree_dir / "agreement.txt",
+    stats = best.table
+    stats.insert(0, "definition", search.best[0])
+    stats.insert(1, "cleaning", search.best[1])
+    _write_csv(agree_dir / OUTPUTS["stats"], stats)
+    _write_csv(agree_dir / OUTPUTS["pairs"], best.pairs)
+    ref = search.reference[(search.reference["definition"] == search.best[0])
+                           & (search.reference["cleaning"] == search.best[1])]
+    _write_csv(agree_dir / OUTPUTS["reference"], ref)
+    atomic_write_text(agree_dir / OUTPUTS["summary"],
                       search.summary_text() + "\n" + best.summary_text(), fsync=False)
     return search
 
@@ -191,13 +200,15 @@ def _nights(folder: Path, out: Path, *, quiet: bool = True):
 def _ectopy_by_subject(store_path: Path) -> dict[str, dict]:
     """Premature beats per hour, per subject, from the cleaning audits in the batch's store.
 
-    ``per_hour`` is the mean over the subject's recordings of the audit's premature beats per
-    hour (the mornings all last about 6 minutes); ``n_caution`` counts the recordings whose
-    audit carries the frequent-premature-beats caution.
+    ``per_hour`` is the mean over the subject's mornings used in the daily table of the audit's
+    premature beats per hour (the mornings all last about 6 minutes). How often the caution
+    fired is counted from the daily table (`rrkit._premature.caution_counts`), not here.
     """
     from ..io.store import read_store_index
 
     index = read_store_index(store_path)
+    if "used_in_daily" in index.columns:  # the same mornings as the daily table
+        index = index[index["used_in_daily"].astype(bool)]
     per: dict[str, dict] = {}
     for row in index.itertuples(index=False):
         summ = json.loads(row.clean_summary) if isinstance(row.clean_summary, str) else {}
@@ -256,8 +267,10 @@ def _figures(folder, out, run, *, load, meta, ectopy, agree, note):
         recording_diagnostic(result, path, window_s=(float(row["start_s"]), float(row["end_s"])),
                              title=f"{row['subject']} {row['date']} ({src.name})")
         written.append(path)
-    if agree is not None:
-        path = fig_dir / "bland_altman_nights.png"
+    if agree is not None:  # beside the agreement tables, named as `rrkit agree` names it
+        from ._agree import OUTPUTS
+
+        path = out / "agreement" / OUTPUTS["png"]
         agree.results[agree.best].plot(path)
         written.append(path)
     note(f"{len(written)} figures in {fig_dir}")
@@ -355,12 +368,17 @@ def _summary(run, *, lab, agree, ectopy, figures, out, meta, folder) -> str:
             lines.append(f"  {r.subject} {r.date} {r.source}: {r.quality_reason}")
     # ectopy caution
     lines.append("")
-    frequent = {s: d for s, d in ectopy.items() if d.get("n_caution", 0) > d["n_files"] / 2}
+    from .._premature import caution_counts
+
+    # one counting rule with `rrkit daily` and the trend figures: the day's morning window
+    counts = caution_counts(table)
+    frequent = {s: c for s, c in counts.items() if c.firm and c.majority}
     if frequent:
-        for s, d in sorted(frequent.items()):
-            lines.append(f"CAUTION {s}: frequent premature beats, {d['per_hour']:.0f} per hour "
-                         f"over {d['n_files']} mornings ({d['n_caution']} above the caution "
-                         "level).")
+        for s, c in sorted(frequent.items()):
+            rate = ectopy.get(s, {}).get("per_hour", float("nan"))
+            lines.append(f"CAUTION {s}: the premature-beat caution on {c.text()}"
+                         + (f" (about {rate:.0f} premature beats per hour)" if rate == rate
+                            else "") + ".")
         lines.append("  rrkit does not diagnose. Frequent premature beats belong with a "
                      "clinician: pass these recordings on, and do not read more into them here.")
     else:
@@ -370,8 +388,10 @@ def _summary(run, *, lab, agree, ectopy, figures, out, meta, folder) -> str:
         lines.append("")
         lines.append("Lab protocol (segments from the events table):")
         for r in lab.itertuples(index=False):
+            resp = (f"  breathing {r.resp_hz * 60:4.1f}/min" if r.resp_hz == r.resp_hz
+                    else "  breathing    -    ")
             lines.append(f"  {r.subject} {r.window:<18} HR {r.mean_hr_bpm:5.1f} bpm  "
-                         f"RMSSD {r.rmssd_ms:6.1f} ms  LF/HF {r.lf_hf:5.2f}"
+                         f"RMSSD {r.rmssd_ms:6.1f} ms  LF/HF {r.lf_hf:5.2f}{resp}"
                          + _breathing_remark(str(r.notes)))
     # agreement
     if agree is not None:
@@ -394,7 +414,9 @@ def _summary(run, *, lab, agree, ectopy, figures, out, meta, folder) -> str:
     for k in ("daily_csv", "store", "errors_csv", "provenance"):
         if k in run.outputs:
             lines.append(f"  {k:<12} {run.outputs[k]}")
-    lines.append(f"  {'figures':<12} {out / 'figures'} ({len(figures)} PNG files)")
+    lines.append(f"  {'agreement':<12} {out / 'agreement'} (the files of rrkit agree --search)")
+    n_fig = sum(1 for f in figures if Path(f).parent == out / "figures")
+    lines.append(f"  {'figures':<12} {out / 'figures'} ({n_fig} PNG files)")
     lines.append("")
     lines.append("rrkit is not a medical device and makes no diagnosis. Flags are prompts to "
                  "look; training decisions rest with qualified staff (docs/cautions.md).")
