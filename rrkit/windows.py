@@ -175,8 +175,9 @@ class FromStart(WindowSpec):
         start = span[0] + float(self.offset_s)
         end = span[1] if self.length_s is None else start + float(self.length_s)
         # '60-360 s' (seconds from the first beat): '/' means a step in slide:5m/1m
-        label = self.label or (f"from {float(self.offset_s):g} s" if self.length_s is None else
-                               f"{float(self.offset_s):g}-{float(self.offset_s + self.length_s):g} s")
+        a = float(self.offset_s)
+        label = self.label or (f"from {a:g} s" if self.length_s is None else
+                               f"{a:g}-{a + float(self.length_s):g} s")
         return [_clip(label, start, end, span)]
 
 

@@ -141,7 +141,7 @@ def test_plot_returns_figure_with_expected_lines(tmp_path):
     assert any(t.startswith("bias -2 l/min (") for t in texts)
     # the intervals are brackets in the right margin (outside the data), not full-width bands
     assert not [p for p in ax.patches if p.get_width() > 0.5]
-    brackets = [c for c in ax.collections if c.get_label() == "_confidence brackets"][0]
+    brackets = next(c for c in ax.collections if c.get_label() == "_confidence brackets")
     segs = brackets.get_segments()
     assert len(segs) == 12  # 3 lines x (bracket, two caps, tick to the line)
     spans = sorted(round(abs(seg[1][1] - seg[0][1]), 6) for seg in segs if seg[0][0] == seg[1][0])

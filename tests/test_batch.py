@@ -460,7 +460,8 @@ def test_one_rule_counts_the_premature_beat_cautions():
     assert list(got) == ["A"]  # B has none
     assert (got["A"].n_days, got["A"].n_measured) == (3, 5)
     assert got["A"].text() == "3 of 5 mornings"
-    assert got["A"].majority and got["A"].firm
+    assert got["A"].majority
+    assert got["A"].firm
 
 
 def _timestamped(path: Path, start: dt.datetime, seed: int) -> Path:

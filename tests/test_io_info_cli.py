@@ -38,7 +38,7 @@ def test_info_rr_table(tmp_path, capsys):
 
     rec = rrkit.read(_rr_file(tmp_path))
     hr = 60000.0 / rrkit.clean(rec).recording.rr_ms
-    line = [ln for ln in out.splitlines() if ln.startswith("  HR range")][0]
+    line = next(ln for ln in out.splitlines() if ln.startswith("  HR range"))
     assert line.startswith(f"  HR range   {hr.min():.0f} to {hr.max():.0f} bpm, median "
                            f"{np.median(hr):.0f} bpm after artifact correction")
     assert line.endswith("as read 60 to 120 bpm (from 4 intervals)")

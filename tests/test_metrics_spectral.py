@@ -182,7 +182,8 @@ def test_paced_breathing_with_a_known_rate_gets_the_claim():
     m = rrkit.metrics(rec, breathing_hz=0.1)
     assert m["resp_hz"] == pytest.approx(0.1, abs=0.012)
     claim = [n for n in m.notes if n.startswith("breathing at 0.100 Hz (6.0/min, given)")]
-    assert len(claim) == 1 and "respiratory power falls into LF" in claim[0]
+    assert len(claim) == 1
+    assert "respiratory power falls into LF" in claim[0]
     assert not any("dominant narrow peak" in n for n in m.notes)
     # the same series without the rate: described, not claimed
     unknown = rrkit.metrics(rec)

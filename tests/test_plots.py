@@ -7,7 +7,7 @@ import pandas as pd
 import pytest
 
 import rrkit
-from rrkit.plots import athlete_trend, swc_position, recording_diagnostic, squad_overview
+from rrkit.plots import athlete_trend, recording_diagnostic, squad_overview, swc_position
 
 PNG_MAGIC = b"\x89PNG\r\n\x1a\n"
 
@@ -84,7 +84,7 @@ def test_athlete_trend_png(tmp_path):
     swc = [lab for lab in labels if lab.startswith("SWC band")]
     assert swc == ["SWC band: baseline mean ± 0.5 SD (28-day baseline ending 7 days before "
                    "each date)"]
-    band = [c for c in ax.collections if c.get_label() == swc[0]][0]
+    band = next(c for c in ax.collections if c.get_label() == swc[0])
     assert band.get_hatch() == "////"
     assert band.get_facecolor().size == 0 or band.get_facecolor()[0][3] == 0
     # lower panel: the 7-day mean's distance from the baseline mean in baseline SDs
@@ -109,11 +109,12 @@ def test_athlete_trend_shows_the_premature_beat_caution_and_off_scale_days():
     head = fig._suptitle.get_text()
     measured = int((daily.loc[b2, "quality"] != "missing").sum())
     assert f"the premature-beat caution on 3 of {measured} mornings" in head
-    assert "does not diagnose" in head and "clinician" in head
+    assert "does not diagnose" in head
+    assert "clinician" in head
     ax = fig.axes[0]
     labels = ax.get_legend_handles_labels()[1]
     assert "flagged day off scale (above)" in labels
-    off = [c for c in ax.collections if c.get_label() == "flagged day off scale (above)"][0]
+    off = next(c for c in ax.collections if c.get_label() == "flagged day off scale (above)")
     assert off.get_offsets()[0][1] <= ax.get_ylim()[1]  # drawn at the edge, inside the axes
     # another athlete's figure carries no caution
     assert "caution" not in athlete_trend(daily, "A1")._suptitle.get_text()
@@ -155,19 +156,23 @@ def test_recording_diagnostic_png(tmp_path):
     assert rows["missed"].n_beats == truth.events["missed"].size == 2
     assert rows["extra"].n_beats == truth.events["extra"].size == 2
     strip = [t.get_text() for t in ax_a.texts]
-    assert strip == ["2 premature beats (4 intervals)", "2 missed beats restored (2 intervals split)",
+    assert strip == ["2 premature beats (4 intervals)",
+                     "2 missed beats restored (2 intervals split)",
                      "2 extra beats removed (4 intervals merged)"]
     np.testing.assert_allclose(sorted(rows["ectopic"].times_s),
                                sorted(bad.beat_times_s[truth.premature_beats]))
     # the spectrum is an outline (nothing filled) with the band edges marked
     values = rrkit.metrics(result.window(60.0, 360.0))
-    assert not ax_p.collections and not ax_p.patches[1:]
+    assert not ax_p.collections
+    assert not ax_p.patches[1:]
     edges = sorted(round(line.get_xdata()[0], 4) for line in ax_p.get_lines()[1:])
     assert edges == [0.0033, 0.04, 0.15, 0.4]
     # band powers in the side table, the same numbers as rrkit.metrics
     table = [t.get_text() for t in ax_tab.texts]
-    assert f"{values['lf_ms2']:,.0f}" in table and f"{values['hf_ms2']:,.0f}" in table
-    assert "ms²" in table and "0.04-0.15" in table
+    assert f"{values['lf_ms2']:,.0f}" in table
+    assert f"{values['hf_ms2']:,.0f}" in table
+    assert "ms²" in table
+    assert "0.04-0.15" in table
     assert "SD1" in ax_q.get_title(loc="left")
     # the legend sits outside every data area
     legend = ax_a.get_legend()

@@ -154,8 +154,8 @@ def _command_line() -> list[str]:
 @click.option("--progress/--no-progress", default=None,
               help="Progress bar (default: on a terminal for runs of more than 20 files).")
 def command(folder, outdir, manifest, pattern, window, tz, wake, pick, clean_method,
-            baseline_days, baseline_lag, baseline_min, min_days, swc_sd, first_date, last_date, jobs,
-            progress) -> int:
+            baseline_days, baseline_lag, baseline_min, min_days, swc_sd, first_date, last_date,
+            jobs, progress) -> int:
     """One row per athlete per day from a folder of recordings, with baselines and flags.
 
     Finds the recordings under FOLDER (recursively), places each on a subject and a local

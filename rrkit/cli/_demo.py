@@ -338,7 +338,8 @@ def _summary(run, *, lab, agree, ectopy, figures, out, meta, folder) -> str:
     names = sorted(this_week["subject"].astype(str).unique())
     if names:
         for s in names:
-            lines.append(f"  {s}: below the SWC band since {_since(table, s) or 'earlier this week'}")
+            since = _since(table, s) or "earlier this week"
+            lines.append(f"  {s}: below the SWC band since {since}")
     else:
         lines.append("  nobody")
     hr_up = table[(table["date"] >= week_start) & table["hr_above_swc"].fillna(False)]

@@ -69,8 +69,8 @@ def ecg_breathing_hz(ecg, *, fs_hz: float, start_s: float | None = None,
     from ..io._ecg import _clean, detect_beats
 
     sig = np.asarray(ecg, dtype=np.float64).ravel()
-    a = 0 if start_s is None else int(round(float(start_s) * fs_hz))
-    b = sig.size if end_s is None else int(round(float(end_s) * fs_hz))
+    a = 0 if start_s is None else round(float(start_s) * fs_hz)
+    b = sig.size if end_s is None else round(float(end_s) * fs_hz)
     if not 0 <= a < b <= sig.size:
         raise InputError(f"start_s/end_s ({start_s}, {end_s}) lie outside the ECG of "
                          f"{sig.size / fs_hz:.1f} s")

@@ -13,13 +13,13 @@
 
 Lines that are compared are drawn in rrkit's neutral inks and told apart by dash and width;
 colours, where a class needs one, are colour-blind safe (Okabe-Ito, and ColorBrewer's red-blue
-for the overview) and each class also has its own marker. Every function returns the `matplotlib.figure.Figure` and writes
-it when given a path.
+for the overview) and each class also has its own marker. Every function returns the
+`matplotlib.figure.Figure` and writes it when given a path.
 """
 
 from ._agreement import bland_altman
 from ._diagnostic import audit_rows, recording_diagnostic
-from ._trend import athlete_trend, swc_position, squad_overview
+from ._trend import athlete_trend, squad_overview, swc_position
 
 __all__ = ["athlete_trend", "audit_rows", "bland_altman", "recording_diagnostic", "swc_position",
            "squad_overview"]

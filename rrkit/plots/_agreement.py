@@ -37,7 +37,7 @@ def line_label(name: str, value: float, ci: tuple[float, float], *, unit: str = 
 
     In the ratio analysis the values are ratios (no unit): ``'bias ratio 1.050 (...)'``.
     """
-    words = dict((k, w) for k, w, _ls, _lw in _LINES)[name]
+    words = {k: w for k, w, _ls, _lw in _LINES}[name]
     if ratio:
         words = words.replace("bias", "bias ratio") if name == "bias" else words + " (ratio)"
     u = f" {unit}" if unit and not ratio else ""
@@ -173,7 +173,6 @@ def bland_altman(result, *, path=None, ax=None, title: str | None = None,
     # ---- the right margin: each line's interval as a bracket, and its name in words
     trans = blended_transform_factory(ax.transAxes, ax.transData)
     brackets = []
-    to_axes = ax.transLimits.transform if not ratio else None
     label_y = []
     for name, _w, _ls, _lw in _LINES:
         lo, hi = s.get(f"{name}_ci_low", np.nan), s.get(f"{name}_ci_high", np.nan)
@@ -190,8 +189,7 @@ def bland_altman(result, *, path=None, ax=None, title: str | None = None,
         frac = [(np.log(v) - np.log(lo_lim)) / (np.log(hi_lim) - np.log(lo_lim)) for v in label_y]
     else:
         frac = [(v - lo_lim) / (hi_lim - lo_lim) for v in label_y]
-    del to_axes
-    for (name, _w, _ls, _lw), fy in zip(_LINES, _spread(frac, _MIN_GAP)):
+    for (name, _w, _ls, _lw), fy in zip(_LINES, _spread(frac, _MIN_GAP), strict=True):
         ci = (s.get(f"{name}_ci_low", np.nan), s.get(f"{name}_ci_high", np.nan))
         ax.text(1.045, fy, line_label(name, s[name], ci, unit=unit, ratio=ratio,
                                       decimals=decimals),

@@ -79,11 +79,13 @@ def audit_rows(result) -> list[AuditRow]:
         elif name == "missed":
             n_beats = int(np.sum(np.maximum(parts[idx] - 1, 1)))
             times = t_int[idx]
-            text = f"{_plural(n_beats, 'missed beat')} restored ({_plural(n_int, 'interval')} split)"
+            text = (f"{_plural(n_beats, 'missed beat')} restored "
+                    f"({_plural(n_int, 'interval')} split)")
         elif name == "extra":
             n_beats = max(n_int // 2, 1)
             times = t_int[idx[::2]] if n_int >= 2 else t_int[idx]
-            text = f"{_plural(n_beats, 'extra beat')} removed ({_plural(n_int, 'interval')} merged)"
+            text = (f"{_plural(n_beats, 'extra beat')} removed "
+                    f"({_plural(n_int, 'interval')} merged)")
         else:
             n_beats = None
             times = t_int[idx]
