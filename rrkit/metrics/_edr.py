@@ -13,8 +13,8 @@ The rate returned is a measurement to pass on as a *given* breathing rate
 
 References
 ----------
-Moody GB, Mark RG, Zoccola A, Mantero S (1985). Derivation of respiratory signals from
-multi-lead ECGs. Computers in Cardiology 12:113-116 (the R-amplitude principle; from memory).
+The R-amplitude principle is common practice in ECG-derived respiration; the 4 Hz grid, the
+Welch settings and the 35 % dominance share are rrkit's choice.
 """
 
 from __future__ import annotations
