@@ -49,7 +49,8 @@ def bland_altman(diff: np.ndarray, *, multiplier: float, confidence: float,
     ``s_b^2 sum m_i^2 / N^2 + s_w^2 / N`` and ``t(k-1)``. The limits' intervals combine the
     bias interval with a Graybill-Wang interval for ``s_b^2 + s_w^2`` by the method of
     recovering variance estimates (MOVER), the construction Zou (2013) proposed for this design
-    (from memory; Zou GY, Stat Methods Med Res 22:630-642); the SD's interval is the square root
+    (Zou GY, Stat Methods Med Res 22:630-642; secondary, the paper seen cited for this design,
+    the construction checked here by simulated coverage); the SD's interval is the square root
     of the Graybill-Wang one.
     """
     from scipy import stats as _st
@@ -304,7 +305,8 @@ def typical_error(reported: np.ndarray, reference: np.ndarray, *,
                   confidence: float) -> dict[str, float]:
     """Typical error of the estimate: residual SD of the reference regressed on the reported value.
 
-    Hopkins' validity statistic (Hopkins WG 2000, Sports Med 30(1):1-15; from memory): the
+    Hopkins' typical error (Hopkins WG 2000, Sports Med 30(1):1-15, verified: the typical error
+    is the within-subject SD), here in its validity form, an rrkit choice of presentation: the
     standard error of the estimate of a least-squares line predicting the reference from the
     device, in the reference's units, with a chi-square interval on n - 2 degrees of freedom.
     """

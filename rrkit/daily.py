@@ -7,7 +7,7 @@ days without a usable one as ``missing``, and adds the baseline columns (`add_ba
 Baselines use only days whose quality is ``ok``; flagged, rejected and missing days are shown
 but never enter a mean, and a gap is never filled with zero or carried forward.
 
-rrkit is not a medical device and makes no diagnosis. A day outside an athlete's band is a
+rrkit is not a medical device and makes no diagnosis. A day outside an athlete's SWC band is a
 prompt to look at the data and the context; training decisions rest with qualified staff.
 
 References
@@ -73,7 +73,8 @@ _TRUE = {"1", "true", "yes", "y", "x"}
 class BaselineSettings:
     """How the rolling values, the long baseline, the band and the weekly values are formed.
 
-    Every window is counted in calendar days and ends on (includes) the row's own date.
+    Every window is counted in calendar days. The rolling window ends on (includes) the row's
+    own date; the long baseline ends ``baseline_lag_days`` days earlier.
 
     Parameters
     ----------
@@ -90,11 +91,15 @@ class BaselineSettings:
         ``ok`` days needed in the long baseline before its mean, SD and band are defined
         (default 14, rrkit's choice: two weeks of daily recordings).
     baseline_lag_days : int
-        The long baseline ends this many days before the row's date (default 0: it ends on the
-        date itself, as the rolling window does). With 7 the current week is left out.
-    band_sd : float
-        Half-width of the normal band in baseline SDs: band = mean ± band_sd × SD (default 0.5,
-        the smallest-worthwhile-change convention common in sports science).
+        The long baseline ends this many days before the row's date (default 7: it ends on
+        the day before the current 7-day window starts). With the baseline ending on the date
+        itself (0), a sustained fall of ln-RMSSD enters the baseline as it happens and drags
+        the band down with it, so the 7-day mean it is compared with seldom leaves the band;
+        leaving the current week out keeps the two apart (rrkit's choice, matching the
+        default ``rolling_days``).
+    swc_sd : float
+        Half-width of the smallest-worthwhile-change (SWC) band in baseline SDs: band = mean
+        ± swc_sd × SD (default 0.5, the sports-science SWC convention; common practice).
     week_min_days : int
         ``ok`` days needed in a calendar week (Monday to Sunday) before a weekly mean is given
         (default 3, Plews et al. 2014).
@@ -104,8 +109,8 @@ class BaselineSettings:
     rolling_min_days: int = 3
     baseline_days: int = 60
     baseline_min_days: int = 14
-    baseline_lag_days: int = 0
-    band_sd: float = 0.5
+    baseline_lag_days: int = 7
+    swc_sd: float = 0.5
     week_min_days: int = 3
 
     def __post_init__(self) -> None:
@@ -114,7 +119,7 @@ class BaselineSettings:
         check_int("baseline_days", self.baseline_days, low=2)
         check_int("baseline_min_days", self.baseline_min_days, low=2, high=self.baseline_days)
         check_int("baseline_lag_days", self.baseline_lag_days, low=0)
-        check_range("band_sd", self.band_sd, low=0.0)
+        check_range("swc_sd", self.swc_sd, low=0.0)
         check_int("week_min_days", self.week_min_days, low=1, high=7)
 
     def to_dict(self) -> dict[str, Any]:
@@ -665,12 +670,12 @@ def add_baselines(table, *, settings: BaselineSettings | None = None):
             ``ok`` days, mean and SD (ddof=1) of ln-RMSSD over the long baseline (the
             ``baseline_days`` calendar days ending ``baseline_lag_days`` before the date),
             given from ``baseline_min_days`` ``ok`` days.
-        ``ln_rmssd_band_low``, ``ln_rmssd_band_high``
-            mean ∓ ``band_sd`` × SD.
-        ``below_band``, ``above_band``
+        ``ln_rmssd_swc_low``, ``ln_rmssd_swc_high``
+            mean ∓ ``swc_sd`` × SD.
+        ``below_swc``, ``above_swc``
             ``ln_rmssd_7d`` below / above the band (nullable boolean).
-        ``hr_base_mean_bpm``, ``hr_base_sd_bpm``, ``hr_band_low_bpm``, ``hr_band_high_bpm``,
-        ``hr_below_band``, ``hr_above_band``
+        ``hr_base_mean_bpm``, ``hr_base_sd_bpm``, ``hr_swc_low_bpm``, ``hr_swc_high_bpm``,
+        ``hr_below_swc``, ``hr_above_swc``
             The same for ``mean_hr_bpm`` (``mean_hr_bpm_7d`` against its band).
         ``week``, ``week_days``, ``week_ok_days``, ``week_compliance_pct``,
         ``ln_rmssd_week``, ``mean_hr_bpm_week``
@@ -738,8 +743,8 @@ def add_baselines(table, *, settings: BaselineSettings | None = None):
         res["ln_rmssd_week"][pos] = np.where(enough, grp["ln"].transform("mean"), np.nan)
         res["mean_hr_bpm_week"][pos] = np.where(enough, grp["hr"].transform("mean"), np.nan)
 
-    half_ln = b.band_sd * res["ln_rmssd_base_sd"]
-    half_hr = b.band_sd * res["hr_base_sd_bpm"]
+    half_ln = b.swc_sd * res["ln_rmssd_base_sd"]
+    half_hr = b.swc_sd * res["hr_base_sd_bpm"]
     cols: dict[str, Any] = {
         "n_ok_7d": pd.array(res["n_ok_7d"], dtype="Int64"),
         "ln_rmssd_7d": res["ln_rmssd_7d"],
@@ -748,19 +753,19 @@ def add_baselines(table, *, settings: BaselineSettings | None = None):
         "n_ok_baseline": pd.array(res["n_ok_baseline"], dtype="Int64"),
         "ln_rmssd_base_mean": res["ln_rmssd_base_mean"],
         "ln_rmssd_base_sd": res["ln_rmssd_base_sd"],
-        "ln_rmssd_band_low": res["ln_rmssd_base_mean"] - half_ln,
-        "ln_rmssd_band_high": res["ln_rmssd_base_mean"] + half_ln,
+        "ln_rmssd_swc_low": res["ln_rmssd_base_mean"] - half_ln,
+        "ln_rmssd_swc_high": res["ln_rmssd_base_mean"] + half_ln,
     }
-    cols["below_band"] = _flag(res["ln_rmssd_7d"], cols["ln_rmssd_band_low"], np.less)
-    cols["above_band"] = _flag(res["ln_rmssd_7d"], cols["ln_rmssd_band_high"], np.greater)
+    cols["below_swc"] = _flag(res["ln_rmssd_7d"], cols["ln_rmssd_swc_low"], np.less)
+    cols["above_swc"] = _flag(res["ln_rmssd_7d"], cols["ln_rmssd_swc_high"], np.greater)
     cols.update({
         "hr_base_mean_bpm": res["hr_base_mean_bpm"],
         "hr_base_sd_bpm": res["hr_base_sd_bpm"],
-        "hr_band_low_bpm": res["hr_base_mean_bpm"] - half_hr,
-        "hr_band_high_bpm": res["hr_base_mean_bpm"] + half_hr,
+        "hr_swc_low_bpm": res["hr_base_mean_bpm"] - half_hr,
+        "hr_swc_high_bpm": res["hr_base_mean_bpm"] + half_hr,
     })
-    cols["hr_below_band"] = _flag(res["mean_hr_bpm_7d"], cols["hr_band_low_bpm"], np.less)
-    cols["hr_above_band"] = _flag(res["mean_hr_bpm_7d"], cols["hr_band_high_bpm"], np.greater)
+    cols["hr_below_swc"] = _flag(res["mean_hr_bpm_7d"], cols["hr_swc_low_bpm"], np.less)
+    cols["hr_above_swc"] = _flag(res["mean_hr_bpm_7d"], cols["hr_swc_high_bpm"], np.greater)
     with np.errstate(invalid="ignore", divide="ignore"):
         compliance = 100.0 * res["week_ok_days"] / res["week_days"]
     cols.update({

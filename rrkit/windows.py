@@ -174,8 +174,10 @@ class FromStart(WindowSpec):
             return []
         start = span[0] + float(self.offset_s)
         end = span[1] if self.length_s is None else start + float(self.length_s)
-        label = self.label or (f"start+{_fmt(self.offset_s)}"
-                               + ("" if self.length_s is None else f"/{_fmt(self.length_s)}"))
+        # '60-360 s' (seconds from the first beat): '/' means a step in slide:5m/1m
+        a = float(self.offset_s)
+        label = self.label or (f"from {a:g} s" if self.length_s is None else
+                               f"{a:g}-{a + float(self.length_s):g} s")
         return [_clip(label, start, end, span)]
 
 

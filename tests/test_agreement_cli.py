@@ -126,6 +126,31 @@ def test_plot_returns_figure_with_expected_lines(tmp_path):
     assert levels == sorted([0.0, round(res.stats["loa_low"], 3), round(res.stats["bias"], 3),
                              round(res.stats["loa_high"], 3)])
     assert "(l/min)" in ax.get_ylabel()
+    # the lines are one ink, told apart by dash style: solid bias, dashed limits
+    styles = {round(line.get_ydata()[0], 3): line.get_linestyle() for line in ax.get_lines()}
+    assert styles[round(res.stats["bias"], 3)] == "-"
+    assert styles[round(res.stats["loa_high"], 3)] == styles[round(res.stats["loa_low"], 3)] == "--"
+    assert len({line.get_color() for line in ax.get_lines() if line.get_ydata()[0] != 0}) == 1
+    # each line is named in words, with its unit and confidence interval (computed here from
+    # the stats: limits of the peak-flow data -78.1 and 73.9, REFERENCES.md section 6)
+    texts = [t.get_text() for t in ax.texts]
+    s = res.stats
+    assert (f"upper limit of agreement {s['loa_high']:.0f} l/min "
+            f"({s['loa_high_ci_low']:.0f} to {s['loa_high_ci_high']:.0f})") in texts
+    assert f"lower limit of agreement {s['loa_low']:.0f} l/min" in " ".join(texts)
+    assert any(t.startswith("bias -2 l/min (") for t in texts)
+    # the intervals are brackets in the right margin (outside the data), not full-width bands
+    assert not [p for p in ax.patches if p.get_width() > 0.5]
+    brackets = next(c for c in ax.collections if c.get_label() == "_confidence brackets")
+    segs = brackets.get_segments()
+    assert len(segs) == 12  # 3 lines x (bracket, two caps, tick to the line)
+    spans = sorted(round(abs(seg[1][1] - seg[0][1]), 6) for seg in segs if seg[0][0] == seg[1][0])
+    want = sorted(round(s[f"{k}_ci_high"] - s[f"{k}_ci_low"], 6) for k in ("loa_low", "bias",
+                                                                           "loa_high"))
+    assert spans == want
+    assert all(seg[0][0] >= 1.0 for seg in segs)  # axes fraction: right of the plot area
+    # one marker for every pair unless subjects are asked for
+    assert ax.get_legend() is None
     assert (tmp_path / "ba.png").stat().st_size > 10_000
     with pytest.raises(ValueError, match=r"must end in .png, .svg or .pdf"):
         res.plot(tmp_path / "ba.jpeg")
@@ -135,7 +160,7 @@ def test_plot_draws_proportional_bias_when_significant(rng, tmp_path):
     ref = rng.uniform(20, 120, 40)
     rep = 1.2 * ref + rng.normal(0, 2, 40)
     res = agreement(rep, ref, subject=np.repeat(["a", "b", "c", "d"], 10), metric="rmssd_ms")
-    fig = res.plot(tmp_path / "ba.svg")
+    fig = res.plot(tmp_path / "ba.svg", subjects=True)
     styles = [line.get_linestyle() for line in fig.axes[0].get_lines()]
     assert ":" in styles
     legend = [t.get_text() for t in fig.axes[0].get_legend().get_texts()]

@@ -79,13 +79,21 @@ def test_artifacts_show_in_the_window_audit():
     assert df["artifact_pct"].iloc[1] == 0
 
 
-def test_events_with_breathing_rate(tmp_path):
+def test_events_with_breathing_rate(tmp_path, capsys):
     rec = simulate_rr(duration_s=900, seed=2, resp_hz=0.1, resp_amp_ms=50.0, lf_amp_ms=5.0)
     path = tmp_path / "protocol.csv"
     path.write_text("label,start_s,end_s,breaths_per_min\nrest,0,300,\npaced,300,600,6\n")
     df = rrkit.analyze(rec, windows=Events.from_csv(path), clean=None)
     assert df["window"].tolist() == ["rest", "paced"]
-    assert "stated breathing rate 0.100 Hz" in df["notes"].iloc[1]
+    assert "breathing at 0.100 Hz (6.0/min, given)" in df["notes"].iloc[1]
+    # the readable table gives the breathing rate per minute too
+    rr_file = tmp_path / "paced.txt"
+    rrkit.write_rr(rr_file, rec)
+    assert main(["analyze", str(rr_file), "--window", f"events:{path}"]) == 0
+    text = capsys.readouterr().out
+    header, _rest, paced = text.splitlines()[:3]
+    assert header.split()[-1] == "resp_per_min"
+    assert paced.split()[-1] == f"{df['resp_hz'].iloc[1] * 60:.1f}"
     assert df["resp_hz"].iloc[1] == pytest.approx(0.1, abs=0.012)
 
 

@@ -228,7 +228,7 @@ def test_rerun_unchanged_recomputes_nothing(tmp_path):
     assert (fourth.n_done, fourth.n_skipped) == (10, 0)
     # baseline settings do not change a file's result: nothing recomputed
     fifth = run_daily(data, out, executor=InlineExecutor(), settings=DailySettings(
-        window="start:30+240", baselines=BaselineSettings(band_sd=1.0)))
+        window="start:30+240", baselines=BaselineSettings(swc_sd=1.0)))
     assert fifth.n_computed == 0
 
 
@@ -406,7 +406,7 @@ def test_frequent_premature_beats_carry_the_caution(tmp_path, capsys):
     assert "does not diagnose" in b["caution"]
     assert (daily.loc[daily["subject"] == "A01", "caution"] == "").all()
     text = capsys.readouterr().out
-    assert "frequent premature beats (B02 on 1 day(s)" in text
+    assert "frequent premature beats (B02 on 1 of 1 morning;" in text
     assert "does not diagnose" in text
 
 
@@ -429,19 +429,39 @@ def test_premature_beat_caution_tells_noisy_mornings_apart():
         "caution": [c(3), c(4), c(12), c(4), c(3), ""]})
     lines = ectopy_lines(table)
     assert len(lines) == 2
-    assert lines[0].startswith("frequent premature beats (P1 on 2 day(s), P2 on 1 day(s);")
+    assert lines[0].startswith("frequent premature beats (P1 on 2 of 2 mornings, P2 on 1 of 1 "
+                              "morning;")
     assert "clinician" in lines[0]
     assert lines[1].startswith("premature beats counted only on noisy mornings, among other "
-                               "artifacts: N1 (1 day(s)), N2 (1 day(s));")
+                               "artifacts: N1 (1 of 1 morning), N2 (1 of 1 morning);")
     assert "clinician" in lines[1]
     assert "does not diagnose" in lines[1]
     # the boundary: 2 x 9 = 18 premature intervals of 36 non-normal ones is half -> stands
     half = table.iloc[[3]].assign(caution=c(9))
-    assert ectopy_lines(half)[0].startswith("frequent premature beats (N1 on 1 day(s)")
+    assert ectopy_lines(half)[0].startswith("frequent premature beats (N1 on 1 of 1 morning")
     # an unreadable count errs on the cautious side
     odd = table.iloc[[3]].assign(caution="premature beats, many")
     assert ectopy_lines(odd)[0].startswith("frequent premature beats (N1")
     assert ectopy_lines(table.assign(caution="")) == []
+
+
+def test_one_rule_counts_the_premature_beat_cautions():
+    """`rrkit daily`, the demo summary and the trend figure count cautioned days the same way:
+    the day's morning window carries the caution, out of the days whose morning was read
+    (missing days do not count; a caution on a missing row cannot exist but is ignored)."""
+    from rrkit._premature import caution_counts
+
+    table = pd.DataFrame({
+        "subject": ["A"] * 6 + ["B"] * 2,
+        "quality": ["ok", "ok", "flagged", "rejected", "missing", "ok", "ok", "ok"],
+        "caution": ["4 premature beats", "", "3 premature beats", "5 premature beats",
+                    "9 premature beats", "", "", ""]})
+    got = caution_counts(table)
+    assert list(got) == ["A"]  # B has none
+    assert (got["A"].n_days, got["A"].n_measured) == (3, 5)
+    assert got["A"].text() == "3 of 5 mornings"
+    assert got["A"].majority
+    assert got["A"].firm
 
 
 def _timestamped(path: Path, start: dt.datetime, seed: int) -> Path:
@@ -519,7 +539,7 @@ def test_pattern_recovers_what_a_name_was_made_of(subject, day, clock, compact):
 @pytest.mark.parametrize(("option", "value", "shown"), [
     ("--min-days", "9", "--min-days must be in [1, 7]; got 9"),
     ("--baseline-min", "0", "--baseline-min must be in"),
-    ("--band-sd", "-1", "--band-sd must be in"),
+    ("--swc-sd", "-1", "--swc-sd must be in"),
     ("--from", "2026-13-01", "--from must be a date 'YYYY-MM-DD'"),
 ])
 def test_daily_usage_errors_name_the_option(tmp_path, capsys, option, value, shown):
@@ -528,5 +548,5 @@ def test_daily_usage_errors_name_the_option(tmp_path, capsys, option, value, sho
     assert rc == 2
     err = capsys.readouterr().err
     assert shown in err
-    for internal in ("_days", "band_sd", "first_date"):  # the Python names stay out of it
+    for internal in ("_days", "swc_sd", "first_date"):  # the Python names stay out of it
         assert internal not in err

@@ -201,7 +201,7 @@ def test_mitdb100_corrected_rmssd(record100):
     # the drop strategy forms differences only between adjacent kept beats
     dropped = clean(Recording.from_peak_times(times), strategy="drop")
     assert rmssd(dropped.recording) == pytest.approx(ref, rel=0.05)
-    # premature beats this frequent carry the caution (30 per hour, from memory)
+    # premature beats this frequent carry the caution (30 per hour, rrkit's caution level)
     assert res.summary.ectopic_per_hour > 30
     assert "clinician" in res.summary.caution
 
@@ -436,7 +436,7 @@ def test_window_recomputes_the_audit():
 
 
 def test_frequent_ectopy_caution():
-    # source: simulated: 2% premature beats (~70 per hour) exceed 30 per hour (from memory)
+    # source: simulated: 2% premature beats (~70 per hour) exceed 30 per hour (rrkit's caution level)
     base = simulate_rr(duration_s=900, seed=4)
     rec, _ = inject_artifacts(base, rates={"ectopic": 0.02}, seed=5)
     res = clean(rec)

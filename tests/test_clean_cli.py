@@ -59,7 +59,7 @@ def test_clean_options(dirty_file, capsys):
 
 def test_clean_mitdb100_prints_the_caution(mitdb100, capsys):
     # source: MIT-BIH record 100 annotations: 34 premature beats in 30 minutes, above 30 per
-    # hour (a threshold from memory), so the caution is printed
+    # hour (rrkit's caution level), so the caution is printed
     assert main(["clean", str(mitdb100.with_suffix(".atr"))]) == 0
     printed = capsys.readouterr().out
     assert "caution:" in printed

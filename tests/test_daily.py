@@ -36,8 +36,9 @@ def _fixture_table():
 
 
 def test_rolling_fixture_from_references():
+    # the fixture's band is the one of a baseline that ends on the date itself (no lag)
     out = add_baselines(_fixture_table(), settings=BaselineSettings(
-        baseline_days=7, baseline_min_days=3))
+        baseline_days=7, baseline_min_days=3, baseline_lag_days=0))
     day7, day10 = out.iloc[6], out.iloc[9]
     # REFERENCES.md section 7 (computed): day 7 ln mean 4.089166, SD 0.110316 (ddof=1),
     # CV 2.6978 %; day 10 mean 4.091087, CV 2.8156 %; band from days 1-7 4.034008-4.144324
@@ -46,8 +47,14 @@ def test_rolling_fixture_from_references():
     assert day7["ln_rmssd_cv_7d"] == pytest.approx(2.6978, abs=5e-5)
     assert day10["ln_rmssd_7d"] == pytest.approx(4.091087, abs=5e-7)
     assert day10["ln_rmssd_cv_7d"] == pytest.approx(2.8156, abs=5e-5)
-    assert day7["ln_rmssd_band_low"] == pytest.approx(4.034008, abs=5e-7)
-    assert day7["ln_rmssd_band_high"] == pytest.approx(4.144324, abs=5e-7)
+    assert day7["ln_rmssd_swc_low"] == pytest.approx(4.034008, abs=5e-7)
+    assert day7["ln_rmssd_swc_high"] == pytest.approx(4.144324, abs=5e-7)
+    # the column names of the smallest-worthwhile-change (SWC) band and its flags are pinned
+    swc = ["ln_rmssd_swc_low", "ln_rmssd_swc_high", "below_swc", "above_swc",
+           "hr_swc_low_bpm", "hr_swc_high_bpm", "hr_below_swc", "hr_above_swc"]
+    cols = list(out.columns)
+    assert [c for c in cols if "swc" in c] == swc
+    assert not [c for c in cols if "band" in c]
     # fewer than 3 ok days in the window: no 7-day value (Plews et al. 2014 minimum)
     assert math.isnan(out.iloc[1]["ln_rmssd_7d"])
     assert out.iloc[2]["n_ok_7d"] == 3
@@ -93,14 +100,14 @@ def _independent(table: pd.DataFrame, b: BaselineSettings) -> pd.DataFrame:
             e["mean_hr_bpm_7d"] = statistics.fmean(in7["mean_hr_bpm"])
         if len(inb) >= b.baseline_min_days:
             m, sd = statistics.fmean(inb["ln_rmssd"]), statistics.stdev(inb["ln_rmssd"])
-            e["ln_rmssd_band_low"], e["ln_rmssd_band_high"] = m - b.band_sd * sd, m + b.band_sd * sd
+            e["ln_rmssd_swc_low"], e["ln_rmssd_swc_high"] = m - b.swc_sd * sd, m + b.swc_sd * sd
             hm, hsd = statistics.fmean(inb["mean_hr_bpm"]), statistics.stdev(inb["mean_hr_bpm"])
-            e["hr_band_low_bpm"], e["hr_band_high_bpm"] = hm - b.band_sd * hsd, hm + b.band_sd * hsd
+            e["hr_swc_low_bpm"], e["hr_swc_high_bpm"] = hm - b.swc_sd * hsd, hm + b.swc_sd * hsd
             if "ln_rmssd_7d" in e:
-                e["below_band"] = e["ln_rmssd_7d"] < e["ln_rmssd_band_low"]
-                e["above_band"] = e["ln_rmssd_7d"] > e["ln_rmssd_band_high"]
-                e["hr_below_band"] = e["mean_hr_bpm_7d"] < e["hr_band_low_bpm"]
-                e["hr_above_band"] = e["mean_hr_bpm_7d"] > e["hr_band_high_bpm"]
+                e["below_swc"] = e["ln_rmssd_7d"] < e["ln_rmssd_swc_low"]
+                e["above_swc"] = e["ln_rmssd_7d"] > e["ln_rmssd_swc_high"]
+                e["hr_below_swc"] = e["mean_hr_bpm_7d"] < e["hr_swc_low_bpm"]
+                e["hr_above_swc"] = e["mean_hr_bpm_7d"] > e["hr_swc_high_bpm"]
         monday = r["date"] - dt.timedelta(days=r["date"].weekday())
         wk = table[(table["subject"] == r["subject"]) & (table["date"] >= monday)
                    & (table["date"] < monday + dt.timedelta(days=7))]
@@ -113,26 +120,49 @@ def _independent(table: pd.DataFrame, b: BaselineSettings) -> pd.DataFrame:
 
 
 @pytest.mark.parametrize("b", [
-    BaselineSettings(baseline_days=21, baseline_min_days=10),
-    BaselineSettings(baseline_days=14, baseline_min_days=7, baseline_lag_days=7, band_sd=1.0,
+    BaselineSettings(baseline_days=21, baseline_min_days=10, baseline_lag_days=0),
+    BaselineSettings(baseline_days=21, baseline_min_days=10),  # the default lag of 7 days
+    BaselineSettings(baseline_days=14, baseline_min_days=7, baseline_lag_days=7, swc_sd=1.0,
                      rolling_min_days=4, week_min_days=4),
 ])
 def test_baselines_equal_independent_computation(b):
     table = _squad()
     got = add_baselines(table, settings=b)
     want = _independent(table, b)
-    for col in ("ln_rmssd_7d", "ln_rmssd_cv_7d", "mean_hr_bpm_7d", "ln_rmssd_band_low",
-                "ln_rmssd_band_high", "hr_band_low_bpm", "hr_band_high_bpm",
+    for col in ("ln_rmssd_7d", "ln_rmssd_cv_7d", "mean_hr_bpm_7d", "ln_rmssd_swc_low",
+                "ln_rmssd_swc_high", "hr_swc_low_bpm", "hr_swc_high_bpm",
                 "week_compliance_pct", "ln_rmssd_week"):
         w = want[col].to_numpy(dtype=float) if col in want else np.full(len(got), np.nan)
         np.testing.assert_allclose(got[col].to_numpy(dtype=float), w, rtol=1e-12, atol=1e-12,
                                    err_msg=col)
-    for col in ("below_band", "above_band", "hr_below_band", "hr_above_band"):
+    for col in ("below_swc", "above_swc", "hr_below_swc", "hr_above_swc"):
         w = [None if (not isinstance(v, (bool, np.bool_))) else bool(v) for v in want[col]]
         g = [None if v is pd.NA else bool(v) for v in got[col]]
         assert g == w, col
-    assert got["below_band"].any() or got["above_band"].any()  # the check sees both states
-    assert got["ln_rmssd_band_low"].notna().sum() > 20
+    assert got["below_swc"].any() or got["above_swc"].any()  # the check sees both states
+    assert got["ln_rmssd_swc_low"].notna().sum() > 20
+
+
+def test_default_baseline_lag_keeps_a_sustained_fall_below_the_swc_band():
+    """Simulation with a known truth: 41 steady days (ln-RMSSD 4.2, SD 0.05), then a fall of
+    0.15 ln units held for 20 days, against a 28-day baseline. A baseline ending on the date
+    takes the fall in as it happens and the band follows it down; the default baseline, ending
+    the day before the current 7-day window, keeps the fall below the band."""
+    rng = np.random.default_rng(11)
+    n = 61
+    ln = 4.2 + rng.normal(0.0, 0.05, n)
+    ln[41:] -= 0.15
+    t = pd.DataFrame({"subject": "A", "date": [D0 + dt.timedelta(days=i) for i in range(n)],
+                      "quality": "ok", "ln_rmssd": ln, "mean_hr_bpm": 50.0})
+    assert BaselineSettings().baseline_lag_days == 7
+    lagged = add_baselines(t, settings=BaselineSettings(baseline_days=28))
+    chasing = add_baselines(t, settings=BaselineSettings(baseline_days=28, baseline_lag_days=0))
+    fall = slice(47, n)  # from the first day whose 7-day window lies wholly in the fall
+    assert lagged["below_swc"].iloc[fall].all()
+    assert not chasing["below_swc"].iloc[fall].all()  # the chasing band lets it back in
+    # the lagged baseline on day 47 is days 13-40 exactly: the steady stretch only
+    assert lagged["ln_rmssd_base_mean"].iloc[47] == pytest.approx(ln[13:41].mean(), rel=1e-12)
+    assert chasing["ln_rmssd_base_mean"].iloc[47] == pytest.approx(ln[20:48].mean(), rel=1e-12)
 
 
 def test_baselines_never_zero_fill_and_absent_days_count_as_missing():

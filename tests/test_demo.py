@@ -36,15 +36,19 @@ def test_small_demo_writes_every_output(small_run):
     daily = pd.read_csv(out / "daily" / "daily.csv")
     assert sorted(daily["subject"].unique()) == ["R01", "R02", "R03"]
     assert len(daily) == 3 * 21  # every subject gets every date, missing days included
-    assert {"ln_rmssd_7d", "ln_rmssd_band_low", "below_band"} <= set(daily.columns)
+    assert {"ln_rmssd_7d", "ln_rmssd_swc_low", "below_swc"} <= set(daily.columns)
     assert (out / "daily" / "store.h5").stat().st_size > 10_000
     assert (out / "daily" / "errors.csv").is_file()
     assert (out / "lab" / "lab_segments.csv").is_file()
-    assert (out / "agreement" / "definition_search.csv").is_file()
+    # the agreement files carry the names `rrkit agree --search` gives them
+    from rrkit.cli._agree import OUTPUTS
+
+    for key in ("search", "stats", "pairs", "reference", "summary", "png"):
+        assert (out / "agreement" / OUTPUTS[key]).is_file(), OUTPUTS[key]
+    assert_png(out / "agreement" / OUTPUTS["png"])
     figs = sorted((out / "figures").glob("*.png"))
     names = {p.name for p in figs}
-    assert {"squad_overview.png", "trend_R01.png", "trend_R02.png", "trend_R03.png",
-            "bland_altman_nights.png"} <= names
+    assert {"squad_overview.png", "trend_R01.png", "trend_R02.png", "trend_R03.png"} <= names
     assert any(n.startswith("diagnostic_") for n in names)
     for p in figs:
         assert_png(p)
@@ -97,16 +101,23 @@ def test_altitude_camp_puts_most_athletes_below_band(full_run):
     daily = pd.read_csv(out / "daily" / "daily.csv", parse_dates=["date"])
     # second week of the camp (weeks 6-7 are 9-22 February 2026 in the squad's calendar)
     camp = daily[(daily["date"] >= "2026-02-16") & (daily["date"] <= "2026-02-22")]
-    share = camp.groupby("subject")["below_band"].mean()
+    share = camp.groupby("subject")["below_swc"].mean()
     assert (share > 0.5).sum() >= 6, share
     # ... and raises resting heart rate above its band for most of them
-    hr_share = camp.groupby("subject")["hr_above_band"].mean()
+    hr_share = camp.groupby("subject")["hr_above_swc"].mean()
     assert (hr_share > 0.5).sum() >= 6, hr_share
     # the two athletes the story makes non-responders stay mostly inside their band
     assert share[["R02", "R07"]].max() < 0.5
-    # the baseline weeks are mostly inside the band
+    # the baseline weeks are mostly inside the band where it is defined: with the baseline
+    # ending 7 days before each date (the default lag) it needs 14 ok days by then, so only
+    # the phase's last week has a band, resting on about two weeks. A 7-day mean of
+    # independent days has an SD of SD/sqrt(7) = 0.38 SD, and a 14-day baseline mean one of
+    # 0.27 SD, so a steady athlete falls below mean - 0.5 SD by chance on about 1 day in 7
+    # (normal tail at -0.5 / sqrt(0.38^2 + 0.27^2) = -1.08 SD: 14 %): allow up to a third.
     base = daily[(daily["date"] >= "2026-01-19") & (daily["date"] <= "2026-02-01")]
-    assert base["below_band"].mean() < 0.2
+    defined = base["below_swc"].dropna().astype(bool)
+    assert len(defined) >= 40
+    assert defined.mean() < 1 / 3
 
 
 def test_frequent_ectopy_athlete_gets_the_caution(full_run):

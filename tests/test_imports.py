@@ -29,7 +29,7 @@ RANK = {
     "metrics": 5,
     "analysis": 6,
     "daily": 7, "agreement": 7, "_agreement_stats": 7, "_agreement_text": 7, "exercise": 7,
-    "_agreement_search": 7,
+    "_agreement_search": 7, "_premature": 7,  # premature-beat cautions of a daily table
     "pairing": 7,      # simultaneous recordings: analysis and agreement on two recordings
     "io.store": 7,     # the HDF5 store keeps clean results and window metrics
     "batch": 8,

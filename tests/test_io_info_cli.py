@@ -8,6 +8,7 @@ from __future__ import annotations
 
 from pathlib import Path
 
+import numpy as np
 import pytest
 
 from rrkit.cli import main
@@ -31,7 +32,16 @@ def test_info_rr_table(tmp_path, capsys):
     assert "beats      5 beats, 4 intervals" in out
     assert "duration   0:03.2 (3.2 s)" in out  # 1000 + 750 + 1000 + 500 ms
     assert "start      2026-03-01T07:00:00+01:00" in out  # first stamp minus its 1000 ms
-    assert "HR range   60 to 120 bpm, median 70 bpm" in out  # 60000/1000 .. 60000/500
+    # the range after correction comes first, the range as read after it; the numbers of
+    # both are those of rrkit.clean and of the raw intervals (60000/1000 .. 60000/500)
+    import rrkit
+
+    rec = rrkit.read(_rr_file(tmp_path))
+    hr = 60000.0 / rrkit.clean(rec).recording.rr_ms
+    line = next(ln for ln in out.splitlines() if ln.startswith("  HR range"))
+    assert line.startswith(f"  HR range   {hr.min():.0f} to {hr.max():.0f} bpm, median "
+                           f"{np.median(hr):.0f} bpm after artifact correction")
+    assert line.endswith("as read 60 to 120 bpm (from 4 intervals)")
     assert "gaps       none" in out
     assert "separator semicolon" in out
 
@@ -44,7 +54,7 @@ def test_info_options_and_samples(tmp_path, capsys):
     assert "kind       peaks  (decided by: given)" in out
     assert "unit       samples  (decided by: given)" in out
     assert "fs         250 Hz" in out
-    assert "HR range   58 to 62 bpm" in out  # 250 samples = 1 s -> 60 bpm; 260 -> 57.7; 240 -> 62.5
+    assert "as read 58 to 62 bpm" in out  # 250 samples = 1 s -> 60 bpm; 260 -> 57.7; 240 -> 62.5
 
 
 def test_info_annotations_and_ecg(mitdb100, capsys):

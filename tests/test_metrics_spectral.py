@@ -157,21 +157,50 @@ def test_gap_spectrum_never_bridges_the_gap():
     assert both["lf_ms2"] == pytest.approx(single["lf_ms2"], rel=1e-6)
 
 
-def test_paced_breathing_raises_note_and_resp_hz():
-    # paced breathing at 6 breaths/min: the respiratory oscillation moves to 0.1 Hz (into LF)
+def test_slow_peak_alone_is_not_called_breathing():
+    # Simulated orthostatic series (known truth): standing, heart rate about 86 bpm, a strong
+    # 0.1 Hz baroreflex oscillation (60 ms) and spontaneous breathing at 0.25 Hz with a small
+    # RSA (8 ms). The dominant peak is at 0.1 Hz and is not breathing: no breathing claim, no
+    # breathing rate taken from it.
+    standing = simulate_rr(duration_s=300, seed=4, mean_rr_ms=700.0, lf_hz=0.1, lf_amp_ms=60.0,
+                           resp_hz=0.25, resp_amp_ms=8.0)
+    m = rrkit.metrics(standing)
+    note = [n for n in m.notes if "dominant narrow peak" in n]
+    assert len(note) == 1
+    assert "slow breathing, or a strong ~0.1 Hz oscillation" in note[0]
+    assert "cannot tell which" in note[0]
+    assert not any(n.startswith("breathing") for n in m.notes)
+    assert not any("respiratory power falls into LF" in n for n in m.notes)
+    assert math.isnan(m["resp_hz"])  # not 0.1 Hz, and not 6 per minute
+
+
+def test_paced_breathing_with_a_known_rate_gets_the_claim():
+    # paced breathing at 6 breaths/min (simulated, known truth): the respiratory oscillation
+    # moves to 0.1 Hz, into LF. With the rate given (protocol, events table) the note claims
+    # breathing and resp_hz is the peak near it.
     rec = simulate_rr(duration_s=300, seed=2, resp_hz=0.1, resp_amp_ms=60.0, lf_amp_ms=5.0)
-    m = rrkit.metrics(rec)
+    m = rrkit.metrics(rec, breathing_hz=0.1)
     assert m["resp_hz"] == pytest.approx(0.1, abs=0.012)
-    assert any("breathing below the HF band" in n for n in m.notes)
-    # a stated rate below the band raises the note too
-    rest = simulate_rr(duration_s=300, seed=2)
-    stated = rrkit.metrics(rest, breathing_hz=0.1)
-    assert any("stated breathing rate 0.100 Hz" in n for n in stated.notes)
+    claim = [n for n in m.notes if n.startswith("breathing at 0.100 Hz (6.0/min, given)")]
+    assert len(claim) == 1
+    assert "respiratory power falls into LF" in claim[0]
+    assert not any("dominant narrow peak" in n for n in m.notes)
+    # the same series without the rate: described, not claimed
+    unknown = rrkit.metrics(rec)
+    assert any("dominant narrow peak" in n for n in unknown.notes)
+    assert math.isnan(unknown["resp_hz"])
+    # a given rate outside 3-42 per minute is not used, and never reported
+    odd = rrkit.metrics(rec, breathing_hz=0.04)  # 2.4 per minute
+    assert any("outside the plausible 3.0/min to 42.0/min" in n for n in odd.notes)
+    assert not any(n.startswith("breathing at") for n in odd.notes)
+    assert math.isnan(odd["resp_hz"])
     # spontaneous breathing at 0.25 Hz: no note, resp_hz is the HF peak
+    rest = simulate_rr(duration_s=300, seed=2)
     normal = rrkit.metrics(rest)
-    assert not any("breathing" in n for n in normal.notes)
+    assert not any("breathing" in n or "dominant" in n for n in normal.notes)
     assert normal["resp_hz"] == normal["hf_peak_hz"]
     assert 0.2 < normal["resp_hz"] < 0.32
+
 
 
 def test_spectrum_needs_a_minute():

@@ -7,7 +7,7 @@ import pandas as pd
 import pytest
 
 import rrkit
-from rrkit.plots import athlete_trend, band_position, recording_diagnostic, squad_overview
+from rrkit.plots import athlete_trend, recording_diagnostic, squad_overview, swc_position
 
 PNG_MAGIC = b"\x89PNG\r\n\x1a\n"
 
@@ -48,9 +48,9 @@ def _daily(n_days=70, subjects=("A1", "B2", "C3"), seed=3):
         okv = df["ln_rmssd"].where(df["quality"] == "ok")
         df["ln_rmssd_7d"] = okv.rolling(7, min_periods=3).mean()
         base = okv.iloc[:28]
-        df["ln_rmssd_band_low"] = base.mean() - 0.5 * base.std()
-        df["ln_rmssd_band_high"] = base.mean() + 0.5 * base.std()
-        df["below_band"] = pd.array(df["ln_rmssd_7d"] < df["ln_rmssd_band_low"], dtype="boolean")
+        df["ln_rmssd_swc_low"] = base.mean() - 0.5 * base.std()
+        df["ln_rmssd_swc_high"] = base.mean() + 0.5 * base.std()
+        df["below_swc"] = pd.array(df["ln_rmssd_7d"] < df["ln_rmssd_swc_low"], dtype="boolean")
         rows.append(df)
     return pd.concat(rows, ignore_index=True)
 
@@ -58,23 +58,66 @@ def _daily(n_days=70, subjects=("A1", "B2", "C3"), seed=3):
 def test_band_position_edges():
     # hand-computable: band 4.0-4.2 has its middle at 4.1 and half-width 0.1
     df = pd.DataFrame({"ln_rmssd_7d": [4.0, 4.1, 4.2, 3.9, np.nan],
-                       "ln_rmssd_band_low": 4.0, "ln_rmssd_band_high": 4.2})
-    np.testing.assert_allclose(band_position(df).to_numpy(), [-1, 0, 1, -2, np.nan], atol=1e-12)
+                       "ln_rmssd_swc_low": 4.0, "ln_rmssd_swc_high": 4.2})
+    np.testing.assert_allclose(swc_position(df).to_numpy(), [-1, 0, 1, -2, np.nan], atol=1e-12)
 
 
 def test_athlete_trend_png(tmp_path):
+    from rrkit.daily import BaselineSettings
+
     daily = _daily()
     load = pd.DataFrame({"date": pd.to_datetime(daily["date"]).astype(str),
                          "subject": daily["subject"], "load_au": 400.0})
     out = tmp_path / "trend.png"
     fig = athlete_trend(daily, "B2", out, load=load,
                         phases=[("base", "2026-01-05", "2026-02-01"),
-                                ("block", "2026-02-02", "2026-03-15")])
+                                ("block", "2026-02-02", "2026-03-15")],
+                        baselines=BaselineSettings(baseline_days=28))
     assert_png(out)
-    labels = fig.axes[0].get_legend_handles_labels()[1]
-    assert "7-day mean below band" in labels  # B2's lowered fortnight is marked
+    ax, ax_z = fig.axes[0], fig.axes[1]
+    labels = ax.get_legend_handles_labels()[1]
+    assert "7-day mean below the SWC band" in labels  # B2's lowered fortnight is marked
     assert "rejected / failed file" in labels
     assert "no recording" in labels
+    # the band is the smallest worthwhile change, its baseline and lag named in the legend,
+    # drawn hatched in grey (no fill colour)
+    swc = [lab for lab in labels if lab.startswith("SWC band")]
+    assert swc == ["SWC band: baseline mean ± 0.5 SD (28-day baseline ending 7 days before "
+                   "each date)"]
+    band = next(c for c in ax.collections if c.get_label() == swc[0])
+    assert band.get_hatch() == "////"
+    assert band.get_facecolor().size == 0 or band.get_facecolor()[0][3] == 0
+    # lower panel: the 7-day mean's distance from the baseline mean in baseline SDs
+    d = daily[daily["subject"] == "B2"]
+    mid = (d["ln_rmssd_swc_low"] + d["ln_rmssd_swc_high"]) / 2
+    sd = (d["ln_rmssd_swc_high"] - d["ln_rmssd_swc_low"])  # band = mean +/- 0.5 SD: width 1 SD
+    want = ((d["ln_rmssd_7d"] - mid) / sd).to_numpy()
+    np.testing.assert_allclose(ax_z.lines[-1].get_ydata(), want, rtol=1e-12)
+    assert np.nanmin(want[-7:]) < -2  # the lowered fortnight is far below
+    # nobody cautioned: no caution under the title
+    assert "caution" not in fig._suptitle.get_text()
+
+
+def test_athlete_trend_shows_the_premature_beat_caution_and_off_scale_days():
+    daily = _daily()
+    b2 = daily.index[daily["subject"] == "B2"]
+    daily["caution"] = ""
+    daily.loc[b2[[30, 31, 40]], "caution"] = "4 premature beats (48 per hour, above 30 ...)"
+    daily.loc[b2[9], "caution"] = "9 premature beats"  # a missing day never counts
+    daily.loc[b2[50], ["quality", "ln_rmssd"]] = ["flagged", 7.0]  # far off the axis
+    fig = athlete_trend(daily, "B2")
+    head = fig._suptitle.get_text()
+    measured = int((daily.loc[b2, "quality"] != "missing").sum())
+    assert f"the premature-beat caution on 3 of {measured} mornings" in head
+    assert "does not diagnose" in head
+    assert "clinician" in head
+    ax = fig.axes[0]
+    labels = ax.get_legend_handles_labels()[1]
+    assert "flagged day off scale (above)" in labels
+    off = next(c for c in ax.collections if c.get_label() == "flagged day off scale (above)")
+    assert off.get_offsets()[0][1] <= ax.get_ylim()[1]  # drawn at the edge, inside the axes
+    # another athlete's figure carries no caution
+    assert "caution" not in athlete_trend(daily, "A1")._suptitle.get_text()
 
 
 def test_squad_overview_png(tmp_path):
@@ -96,22 +139,68 @@ def test_trend_unknown_subject_and_bad_table(tmp_path):
 
 
 def test_recording_diagnostic_png(tmp_path):
+    from rrkit.plots import audit_rows
     from rrkit.simulate import inject_artifacts, simulate_rr
 
     rec = simulate_rr(duration_s=360, seed=5)
-    bad, _truth = inject_artifacts(rec, counts={"missed": 2, "ectopic": 2}, seed=1)
+    bad, truth = inject_artifacts(rec, counts={"missed": 2, "ectopic": 2, "extra": 2}, seed=1)
     result = rrkit.clean(bad)
     out = tmp_path / "diag.png"
     fig = recording_diagnostic(result, out, window_s=(60.0, 360.0))
     assert_png(out, min_px=(600, 900))
-    labels = fig.axes[0].get_legend_handles_labels()[1]
-    assert any(lab.startswith("missed beat") for lab in labels)
-    assert any(lab.startswith("ectopic") for lab in labels)
-    texts = " ".join(t.get_text() for t in fig.axes[1].texts)
-    assert "LF" in texts
-    assert "HF" in texts
-    assert "ms²" in texts
-    assert "SD1" in " ".join(t.get_text() for t in fig.axes[2].texts)
+    ax_t, ax_a, ax_p, ax_tab, ax_q = fig.axes
+    # the audit strip: one row per class, counted in beats as the simulation planted them
+    # (ground truth of inject_artifacts: 2 premature beats, 2 missed, 2 extra)
+    rows = {r.label: r for r in audit_rows(result)}
+    assert rows["ectopic"].n_beats == truth.premature_beats.size == 2
+    assert rows["missed"].n_beats == truth.events["missed"].size == 2
+    assert rows["extra"].n_beats == truth.events["extra"].size == 2
+    strip = [t.get_text() for t in ax_a.texts]
+    assert strip == ["2 premature beats (4 intervals)",
+                     "2 missed beats restored (2 intervals split)",
+                     "2 extra beats removed (4 intervals merged)"]
+    np.testing.assert_allclose(sorted(rows["ectopic"].times_s),
+                               sorted(bad.beat_times_s[truth.premature_beats]))
+    # the spectrum is an outline (nothing filled) with the band edges marked
+    values = rrkit.metrics(result.window(60.0, 360.0))
+    assert not ax_p.collections
+    assert not ax_p.patches[1:]
+    edges = sorted(round(line.get_xdata()[0], 4) for line in ax_p.get_lines()[1:])
+    assert edges == [0.0033, 0.04, 0.15, 0.4]
+    # band powers in the side table, the same numbers as rrkit.metrics
+    table = [t.get_text() for t in ax_tab.texts]
+    assert f"{values['lf_ms2']:,.0f}" in table
+    assert f"{values['hf_ms2']:,.0f}" in table
+    assert "ms²" in table
+    assert "0.04-0.15" in table
+    assert "SD1" in ax_q.get_title(loc="left")
+    # the legend sits outside every data area
+    legend = ax_a.get_legend()
+    assert legend is not None
+    from matplotlib.backends.backend_agg import FigureCanvasAgg
+
+    canvas = FigureCanvasAgg(fig)
+    canvas.draw()
+    renderer = canvas.get_renderer()
+    box = legend.get_window_extent(renderer)
+    for ax in (ax_t, ax_a, ax_p, ax_q):
+        assert not box.overlaps(ax.get_window_extent(renderer))
+    labels = [t.get_text() for t in legend.get_texts()]
+    assert "analysis window 60-360 s" in labels
+
+
+def test_recording_diagnostic_marks_values_off_scale():
+    from rrkit.simulate import simulate_rr
+
+    rec = simulate_rr(duration_s=200, seed=2)
+    rr = rec.rr_ms.copy()
+    rr[50] = 6000.0  # a dropout read as one long interval, far above the axis
+    fig = recording_diagnostic(rrkit.Recording.from_rr(rr))
+    ax_t = fig.axes[0]
+    labels = ax_t.get_legend_handles_labels()[1]
+    off = [lab for lab in labels if lab.startswith("off scale")]
+    assert off == ["off scale: 1 interval above the axis (up to 6000 ms)"]
+    assert ax_t.get_ylim()[1] < 6000.0
 
 
 def test_plot_command_diagnostic_and_trend(tmp_path):

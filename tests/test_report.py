@@ -167,13 +167,13 @@ def test_week_table_numbers_are_the_daily_tables(page, season):
         assert cells[1] == ln
         hr = f"{float(r['mean_hr_bpm_7d']):.1f} bpm" if r["mean_hr_bpm_7d"] else "\u2013 bpm"
         assert cells[3] == hr
-        if r["ln_rmssd_band_low"]:
-            assert (f"band {float(r['ln_rmssd_band_low']):.2f}\u2013"
-                    f"{float(r['ln_rmssd_band_high']):.2f}") in cells[2]
-        word = {"True": "below band"}.get(r["below_band"])
-        if word is None and r["above_band"] == "True":
+        if r["ln_rmssd_swc_low"]:
+            assert (f"band {float(r['ln_rmssd_swc_low']):.2f}\u2013"
+                    f"{float(r['ln_rmssd_swc_high']):.2f}") in cells[2]
+        word = {"True": "below band"}.get(r["below_swc"])
+        if word is None and r["above_swc"] == "True":
             word = "above band"
-        if word is None and r["ln_rmssd_band_low"] and r["ln_rmssd_7d"]:
+        if word is None and r["ln_rmssd_swc_low"] and r["ln_rmssd_7d"]:
             word = "in band"
         if word is not None:
             assert word in cells[2], (r["subject"], cells[2])
@@ -212,7 +212,7 @@ def test_settings_and_versions_are_shown(page):
     _path, text = page
     assert f"rrkit {__version__}" in text
     assert "Europe/Berlin" in text
-    assert "Band half-width (baseline SDs)" in text
+    assert "SWC band half-width (baseline SDs)" in text
 
 
 # ------------------------------------------------------------------ self-contained

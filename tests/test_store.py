@@ -60,7 +60,7 @@ def test_store_round_trip(run):
         row = summary.table[summary.table["source"] == src].iloc[0]
         assert rec["windows"]["rmssd_ms"].iloc[0] == row["rmssd_ms"]
         assert rec["windows"]["window"].iloc[0] == "morning"
-        assert rec["settings"]["baselines"]["band_sd"] == 0.5
+        assert rec["settings"]["baselines"]["swc_sd"] == 0.5
         assert rec["clean_summary"]["quality"] in ("ok", "flagged")
     windows = read_store_windows(store)
     assert list(windows["recording"]) == [0, 1, 2]
@@ -68,7 +68,12 @@ def test_store_round_trip(run):
     assert list(daily.columns) == list(summary.table.columns)
     np.testing.assert_array_equal(daily["ln_rmssd"].to_numpy(dtype=float),
                                   summary.table["ln_rmssd"].to_numpy(dtype=float))
-    assert list(daily["below_band"]) == list(summary.table["below_band"])
+    assert list(daily["below_swc"]) == list(summary.table["below_swc"])
+    # the smallest-worthwhile-change (SWC) columns keep their names through the store
+    swc = ["ln_rmssd_swc_low", "ln_rmssd_swc_high", "below_swc", "above_swc",
+           "hr_swc_low_bpm", "hr_swc_high_bpm", "hr_below_swc", "hr_above_swc"]
+    assert set(swc) <= set(daily.columns)
+    assert not [c for c in daily.columns if "band" in c]
 
 
 def test_store_rejects_foreign_file_and_unknown_key(tmp_path, run):

@@ -305,3 +305,13 @@ def test_window_validation():
         Window("x", 10, 5)
     with pytest.raises(rrkit.InputError, match=r"length_s must be in \(0"):
         Sliding(0)
+
+
+def test_from_start_label_reads_as_seconds_not_as_a_step():
+    # '/' is the step of slide:5m/1m, so start:60+300 is labelled by its span
+    from rrkit import Recording
+    from rrkit.windows import FromStart, parse_window
+
+    rec = Recording.from_rr([1000.0] * 400)
+    assert parse_window("start:60+300").resolve(rec)[0].label == "60-360 s"
+    assert FromStart(30.0).resolve(rec)[0].label == "from 30 s"

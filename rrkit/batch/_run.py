@@ -65,7 +65,7 @@ class RunSummary:
         Output name -> path.
     last_date : date or None
         The last date of the table.
-    below_band : list of str
+    below_swc : list of str
         Subjects whose 7-day ln-RMSSD is below their band on ``last_date``.
     """
 
@@ -80,7 +80,7 @@ class RunSummary:
     n_ignored: int = 0
     outputs: dict = field(default_factory=dict)
     last_date: dt.date | None = None
-    below_band: list = field(default_factory=list)
+    below_swc: list = field(default_factory=list)
 
     @property
     def exit_code(self) -> int:
@@ -242,8 +242,8 @@ def run_daily(
                          n_computed=n_computed, n_ignored=disc.n_ignored)
     if len(table):
         summary.last_date = max(table["date"])
-        last = table[(table["date"] == summary.last_date) & table["below_band"].fillna(False)]
-        summary.below_band = sorted(last["subject"].astype(str).unique())
+        last = table[(table["date"] == summary.last_date) & table["below_swc"].fillna(False)]
+        summary.below_swc = sorted(last["subject"].astype(str).unique())
 
     outputs = _write_outputs(out, table, weekly, recordings, err_df, store_recs, s)
     prov = _provenance(root, disc, s, digest, hashed, status, results, outputs, summary, command)

@@ -62,8 +62,8 @@ class CleanSettings:
         moves the median by at most one rank when that beat is an outlier).
     median_max_deviation : float
         ``"median"`` method: relative deviation from that median that marks an artifact, 0.20
-        (the 20% rule, common practice; attributed to Malik et al. 1993 from memory; Machado et al.
-        2000 use R = 0.2 against the last accepted interval).
+        (the 20% rule, common practice; the value and the median reference are rrkit's choice;
+        Machado et al. 2000 use R = 0.2 against the last accepted interval).
     mad_window_beats : int
         ``"mad"`` method: centred window (beats) over which Berntson's quartile deviations and
         median are taken, 91 (rrkit's choice, so that long recordings follow changes in heart
@@ -85,8 +85,9 @@ class CleanSettings:
         A window with more than this share of corrected intervals is ``flagged``, 5% (common
         practice, no single source).
     caution_ectopic_per_hour : float
-        More premature beats per hour than this adds the caution to the summary, 30 (a threshold
-        commonly used for frequent premature beats; from memory).
+        More premature beats per hour than this adds the caution to the summary, 30 (rrkit's
+        choice of a level at which a clinician should see the recording; not a clinical
+        criterion).
     caution_min_ectopic : int
         ...and at least this many premature beats in the window, 3 (rrkit's choice, so that one
         premature beat in a two-minute window does not read as a rate of 30 per hour).

@@ -244,10 +244,13 @@ def _table(df) -> str:
     for col in TABLE_COLUMNS[4:]:
         if col in df.columns:
             view[col] = df[col]
+    if "resp_hz" in df.columns:  # the breathing-rate estimate, as people count breaths
+        view["resp_per_min"] = df["resp_hz"].astype(float) * 60.0
     formats = {"dur_s": "{:.0f}", "artifact_pct": "{:.1f}", "mean_hr_bpm": "{:.1f}",
                "rmssd_ms": "{:.1f}", "ln_rmssd": "{:.2f}", "sdnn_ms": "{:.1f}",
                "pnn50_pct": "{:.1f}", "lf_ms2": "{:.0f}", "hf_ms2": "{:.0f}", "lf_hf": "{:.2f}",
-               "sd1_ms": "{:.1f}", "dfa_alpha1": "{:.2f}", "sampen": "{:.2f}"}
+               "sd1_ms": "{:.1f}", "dfa_alpha1": "{:.2f}", "sampen": "{:.2f}",
+               "resp_per_min": "{:.1f}"}
     for col, f in formats.items():
         if col in view.columns:
             view[col] = [("-" if not isinstance(v, (int, float)) or not math.isfinite(v)

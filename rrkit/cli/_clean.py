@@ -14,7 +14,7 @@ from pathlib import Path
 import click
 
 from .._atomic import atomic_path
-from ..clean import LABELS, METHODS, STRATEGIES, CleanResult, clean
+from ..clean import METHODS, STRATEGIES, CleanResult, clean
 from ..errors import InputError
 from ..io import read, write_rr
 from ._options import reading_options
@@ -37,18 +37,23 @@ def summary_lines(result: CleanResult) -> list[str]:
              f"  {'intervals':<{_W}}{s.n_intervals}"
              + (f" (plus {int(result.input.gaps.sum())} gap intervals, left alone)"
                 if result.input.has_gaps else "")]
-    for name in LABELS:
-        n = s.counts[name]
-        if n or name == "normal":
-            share = 100.0 * n / s.n_intervals if s.n_intervals else 0.0
-            lines.append(f"  {name:<{_W}}{n:>7}  ({share:.1f}%)")
+    from ..plots._diagnostic import audit_rows
+
+    def share(n: int) -> str:
+        return f"{100.0 * n / s.n_intervals if s.n_intervals else 0.0:.1f}%"
+
+    n = s.counts["normal"]
+    lines.append(f"  {'normal':<{_W}}{n} interval{'' if n == 1 else 's'} ({share(n)})")
+    # counted as people count them: beats for premature, missed and extra beats
+    for row in audit_rows(result):
+        lines.append(f"  {row.label:<{_W}}{row.text}, {share(row.n_intervals)} of intervals")
     lines += [
         f"  {'artifacts':<{_W}}{s.artifact_pct:.2f}% of intervals",
         f"  {'corrected':<{_W}}{s.corrected_pct:.2f}% of intervals "
         f"(limit {st.max_corrected_pct:g}%)",
         f"  {'longest run':<{_W}}{s.longest_artifact_run} interval(s)",
-        f"  {'premature':<{_W}}{result.ectopic_beats.size} beat(s), {s.ectopic_per_hour:.1f} "
-        "per hour",
+        f"  {'premature':<{_W}}{result.ectopic_beats.size} "
+        f"beat{'' if result.ectopic_beats.size == 1 else 's'}, {s.ectopic_per_hour:.1f} per hour",
         f"  {'quality':<{_W}}{s.quality}" + (f": {s.quality_reason}" if s.quality_reason else ""),
     ]
     return lines

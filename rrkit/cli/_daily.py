@@ -22,44 +22,22 @@ from ..errors import InputError
 
 ECTOPY_CAUTION = ("rrkit does not diagnose; frequent premature beats are a matter for a "
                   "clinician, please have these recordings reviewed by qualified staff.")
-CAUTION = ("rrkit is not a medical device and makes no diagnosis; a value outside the band is "
+CAUTION = ("rrkit is not a medical device and makes no diagnosis; a value outside the SWC band is "
            "a prompt to look at the data and the context. Training decisions rest with "
            "qualified staff.")
-
-
-_PREMATURE_N = re.compile(r"^\s*(\d+) premature beats")
-
-
-def _premature_dominates(row) -> bool:
-    """Whether a morning's caution rests on premature beats rather than on noise.
-
-    True when the morning is ``ok``, or when the premature beats' intervals (two per beat: the
-    early one and the pause after it, as the artifact stage labels them) make up at least half
-    of the morning's non-normal intervals (``artifact_pct`` of ``n_beats``). A caution whose
-    count cannot be read counts as resting on premature beats (the cautious side).
-    """
-    if str(row["quality"]) == "ok":
-        return True
-    m = _PREMATURE_N.match(str(row["caution"]))
-    try:
-        n_bad = float(row["artifact_pct"]) / 100.0 * float(row["n_beats"])
-    except (KeyError, TypeError, ValueError):
-        return True
-    if m is None or not n_bad > 0:
-        return True
-    return 2 * int(m.group(1)) >= 0.5 * n_bad
 
 
 def ectopy_lines(table) -> list[str]:
     """The premature-beat caution lines for the end of a run, one per kind of evidence.
 
-    The artifact stage attaches its caution to a morning when premature beats exceed a rate
-    (see `rrkit.CleanSettings`). In a 5-minute window three beats make that rate, and in a
-    noisy recording some beats labelled premature may be noise. So a subject is listed with
-    frequent premature beats when at least one cautioned morning is ``ok`` or has premature
-    beats for most of its non-normal intervals; subjects whose cautioned mornings are all
-    mostly noise are listed apart, as recordings to look at. Both lines defer to a clinician:
-    rrkit does not diagnose either way.
+    The days are counted by `rrkit._premature.caution_counts`, the one rule that the demo and
+    the trend figure use too: cautioned days (the day's morning window carries the artifact
+    stage's caution) out of the days with a morning read. In a 5-minute window three beats
+    make the caution's rate, and in a noisy recording some beats labelled premature may be
+    noise. So a subject is listed with frequent premature beats when at least one cautioned
+    morning is ``ok`` or has premature beats for most of its non-normal intervals; subjects
+    whose cautioned mornings are all mostly noise are listed apart, as recordings to look at.
+    Both lines defer to a clinician: rrkit does not diagnose either way.
 
     Parameters
     ----------
@@ -72,21 +50,20 @@ def ectopy_lines(table) -> list[str]:
     list of str
         Empty when no morning carries the caution.
     """
-    marked = table[table["caution"].fillna("").astype(str) != ""]
-    if not len(marked):
+    from .._premature import caution_counts
+
+    counts = caution_counts(table)
+    if not counts:
         return []
-    subject = marked["subject"].astype(str)
-    stands = marked.apply(_premature_dominates, axis=1).astype(bool)
-    firm = sorted(subject[stands].unique())
-    per = subject.value_counts()
+    firm = [c for c in counts.values() if c.firm]
+    rest = [c for c in counts.values() if not c.firm]
     lines = []
     if firm:
-        who = ", ".join(f"{s} on {int(per[s])} day(s)" for s in firm)
+        who = ", ".join(f"{c.subject} on {c.text()}" for c in firm)
         lines.append(f"frequent premature beats ({who}; see the caution column): "
                      + ECTOPY_CAUTION)
-    rest = sorted(set(subject) - set(firm))
     if rest:
-        who = ", ".join(f"{s} ({int(per[s])} day(s))" for s in rest)
+        who = ", ".join(f"{c.subject} ({c.text()})" for c in rest)
         lines.append(f"premature beats counted only on noisy mornings, among other artifacts: "
                      f"{who}; the count may come from noise. Look at these recordings and, if "
                      "in doubt, have them reviewed by a clinician; rrkit does not diagnose.")
@@ -104,7 +81,8 @@ def _wake(text: str) -> tuple[str, str]:
 #: settings names -> the options that set them, so a usage error names what the user typed
 _OPTION_OF = {"rolling_min_days": "--min-days", "week_min_days": "--min-days",
               "baseline_days": "--baseline-days", "baseline_min_days": "--baseline-min",
-              "band_sd": "--band-sd", "first_date": "--from", "last_date": "--to"}
+              "baseline_lag_days": "--baseline-lag",
+              "swc_sd": "--swc-sd", "first_date": "--from", "last_date": "--to"}
 
 
 @contextlib.contextmanager
@@ -157,13 +135,18 @@ def _command_line() -> list[str]:
 @click.option("--clean", "clean_method", type=click.Choice(["drr", "median", "mad", "none"]),
               default="drr", show_default=True, help="Artifact detection method.")
 @click.option("--baseline-days", type=int, default=60, show_default=True,
-              help="Calendar days of the long baseline (ending on each date).")
+              help="Calendar days of the long baseline (ending --baseline-lag days before each "
+                   "date).")
+@click.option("--baseline-lag", type=int, default=7, show_default=True,
+              help="Days between the end of the long baseline and the date: 7 leaves the "
+                   "current 7-day window out, so a sustained fall does not drag the baseline "
+                   "down with it; 0 ends the baseline on the date itself.")
 @click.option("--baseline-min", type=int, default=14, show_default=True,
               help="ok days the long baseline needs before it is defined.")
 @click.option("--min-days", type=int, default=3, show_default=True,
               help="ok days a 7-day value and a weekly value need.")
-@click.option("--band-sd", type=float, default=0.5, show_default=True,
-              help="Half-width of the normal band in baseline SDs.")
+@click.option("--swc-sd", type=float, default=0.5, show_default=True,
+              help="Half-width of the smallest-worthwhile-change (SWC) band in baseline SDs.")
 @click.option("--from", "first_date", help="First date of the table (YYYY-MM-DD).")
 @click.option("--to", "last_date", help="Last date of the table (YYYY-MM-DD).")
 @click.option("--jobs", type=int, default=None,
@@ -171,8 +154,8 @@ def _command_line() -> list[str]:
 @click.option("--progress/--no-progress", default=None,
               help="Progress bar (default: on a terminal for runs of more than 20 files).")
 def command(folder, outdir, manifest, pattern, window, tz, wake, pick, clean_method,
-            baseline_days, baseline_min, min_days, band_sd, first_date, last_date, jobs,
-            progress) -> int:
+            baseline_days, baseline_lag, baseline_min, min_days, swc_sd, first_date, last_date,
+            jobs, progress) -> int:
     """One row per athlete per day from a folder of recordings, with baselines and flags.
 
     Finds the recordings under FOLDER (recursively), places each on a subject and a local
@@ -192,7 +175,8 @@ def command(folder, outdir, manifest, pattern, window, tz, wake, pick, clean_met
         raise InputError(f"--jobs must be at least 1; got {jobs}")
     with _as_options():
         baselines = BaselineSettings(rolling_min_days=min_days, baseline_days=baseline_days,
-                                     baseline_min_days=baseline_min, band_sd=band_sd,
+                                     baseline_min_days=baseline_min,
+                                     baseline_lag_days=baseline_lag, swc_sd=swc_sd,
                                      week_min_days=min(min_days, 7))
         settings = DailySettings(window=window, tz=tz, wake_start=wake_start, wake_end=wake_end,
                                  pick=pick, clean=clean_method, baselines=baselines)
@@ -216,11 +200,11 @@ def command(folder, outdir, manifest, pattern, window, tz, wake, pick, clean_met
         for line in ectopy_lines(table):
             click.echo(line)
     if summary.last_date is not None:
-        if summary.below_band:
-            click.echo(f"7-day ln-RMSSD below the band on {summary.last_date}: "
-                       + ", ".join(summary.below_band))
+        if summary.below_swc:
+            click.echo(f"7-day ln-RMSSD below the SWC band on {summary.last_date}: "
+                       + ", ".join(summary.below_swc))
         else:
-            click.echo(f"7-day ln-RMSSD below the band on {summary.last_date}: nobody")
+            click.echo(f"7-day ln-RMSSD below the SWC band on {summary.last_date}: nobody")
         click.echo(CAUTION)
     click.echo(summary.counts_line())
     return summary.exit_code

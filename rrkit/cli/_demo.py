@@ -222,12 +222,21 @@ def _nights(folder: Path, out: Path, *, quiet: bool = True):
         nights.append(rec.replace(start=row["start"], subject=row["subject"]))
     search = search_definitions(reported, nights, metric="rmssd_ms",
                                 progress=None if not quiet else False)
+    from ._agree import OUTPUTS  # the same file names as `rrkit agree --search`
+
     agree_dir = out / "agreement"
     agree_dir.mkdir(parents=True, exist_ok=True)
-    _write_csv(agree_dir / "definition_search.csv", search.table)
+    _write_csv(agree_dir / OUTPUTS["search"], search.table)
     best = search.results[search.best]
-    _write_csv(agree_dir / "agreement_best.csv", best.table)
-    atomic_write_text(agree_dir / "agreement.txt",
+    stats = best.table
+    stats.insert(0, "definition", search.best[0])
+    stats.insert(1, "cleaning", search.best[1])
+    _write_csv(agree_dir / OUTPUTS["stats"], stats)
+    _write_csv(agree_dir / OUTPUTS["pairs"], best.pairs)
+    ref = search.reference[(search.reference["definition"] == search.best[0])
+                           & (search.reference["cleaning"] == search.best[1])]
+    _write_csv(agree_dir / OUTPUTS["reference"], ref)
+    atomic_write_text(agree_dir / OUTPUTS["summary"],
                       search.summary_text() + "\n" + best.summary_text(), fsync=False)
     return search
 
@@ -235,13 +244,15 @@ def _nights(folder: Path, out: Path, *, quiet: bool = True):
 def _ectopy_by_subject(store_path: Path) -> dict[str, dict]:
     """Premature beats per hour, per subject, from the cleaning audits in the batch's store.
 
-    ``per_hour`` is the mean over the subject's recordings of the audit's premature beats per
-    hour (the mornings all last about 6 minutes); ``n_caution`` counts the recordings whose
-    audit carries the frequent-premature-beats caution.
+    ``per_hour`` is the mean over the subject's mornings used in the daily table of the audit's
+    premature beats per hour (the mornings all last about 6 minutes). How often the caution
+    fired is counted from the daily table (`rrkit._premature.caution_counts`), not here.
     """
     from ..io.store import read_store_index
 
     index = read_store_index(store_path)
+    if "used_in_daily" in index.columns:  # the same mornings as the daily table
+        index = index[index["used_in_daily"].astype(bool)]
     per: dict[str, dict] = {}
     for row in index.itertuples(index=False):
         summ = json.loads(row.clean_summary) if isinstance(row.clean_summary, str) else {}
@@ -300,8 +311,10 @@ def _figures(folder, out, run, *, load, meta, ectopy, agree, note):
         recording_diagnostic(result, path, window_s=(float(row["start_s"]), float(row["end_s"])),
                              title=f"{row['subject']} {row['date']} ({src.name})")
         written.append(path)
-    if agree is not None:
-        path = fig_dir / "bland_altman_nights.png"
+    if agree is not None:  # beside the agreement tables, named as `rrkit agree` names it
+        from ._agree import OUTPUTS
+
+        path = out / "agreement" / OUTPUTS["png"]
         agree.results[agree.best].plot(path)
         written.append(path)
     note(f"{len(written)} figures in {fig_dir}")
@@ -320,7 +333,7 @@ def _report(out: Path, *, load, meta) -> Path:
 def _since(table, subject: str) -> str | None:
     """First date of the current unbroken run of below-band days for a subject."""
     d = table[table["subject"].astype(str) == subject].sort_values("date")
-    flags = d["below_band"].fillna(False).astype(bool).to_numpy()
+    flags = d["below_swc"].fillna(False).astype(bool).to_numpy()
     if not flags.size or not flags[-1]:
         return None
     i = flags.size - 1
@@ -329,11 +342,11 @@ def _since(table, subject: str) -> str | None:
     return str(d["date"].iloc[i])
 
 
-def below_band_episodes(table) -> dict[str, list[tuple[str, str]]]:
+def below_swc_episodes(table) -> dict[str, list[tuple[str, str]]]:
     """Per subject, the (first, last) dates of each run of consecutive below-band days."""
     out: dict[str, list[tuple[str, str]]] = {}
     for subject, d in table.sort_values("date").groupby("subject"):
-        flags = d["below_band"].fillna(False).astype(bool).to_numpy()
+        flags = d["below_swc"].fillna(False).astype(bool).to_numpy()
         dates = [str(x) for x in d["date"]]
         runs, start = [], None
         for i, f in enumerate(flags):
@@ -345,6 +358,15 @@ def below_band_episodes(table) -> dict[str, list[tuple[str, str]]]:
                 start = None
         out[str(subject)] = runs
     return out
+
+
+def _breathing_remark(notes: str) -> str:
+    """The lab line's short remark on the breathing note of its window."""
+    if "breathing at " in notes and "below the HF band" in notes:
+        return "  (breathing given below the HF band: LF/HF holds respiratory power)"
+    if "dominant narrow peak" in notes:
+        return "  (a dominant slow peak: slow breathing or a ~0.1 Hz oscillation)"
+    return ""
 
 
 def _summary(run, *, lab, agree, ectopy, figures, out, meta, folder, report=None,
@@ -363,22 +385,23 @@ def _summary(run, *, lab, agree, ectopy, figures, out, meta, folder, report=None
     lines.append(f"  files: {run.counts_line()}")
     # below band this week
     week_start = last - __import__("datetime").timedelta(days=last.weekday())
-    this_week = table[(table["date"] >= week_start) & table["below_band"].fillna(False)]
+    this_week = table[(table["date"] >= week_start) & table["below_swc"].fillna(False)]
     lines.append("")
-    lines.append(f"Below their ln-RMSSD band this week (from {week_start}):")
+    lines.append(f"Below their ln-RMSSD SWC band this week (from {week_start}):")
     names = sorted(this_week["subject"].astype(str).unique())
     if names:
         for s in names:
-            lines.append(f"  {s}: below band since {_since(table, s) or 'earlier this week'}")
+            since = _since(table, s) or "earlier this week"
+            lines.append(f"  {s}: below the SWC band since {since}")
     else:
         lines.append("  nobody")
-    hr_up = table[(table["date"] >= week_start) & table["hr_above_band"].fillna(False)]
+    hr_up = table[(table["date"] >= week_start) & table["hr_above_swc"].fillna(False)]
     hr_names = sorted(hr_up["subject"].astype(str).unique())
-    lines.append("Resting heart rate (7-day mean) above its band this week: "
+    lines.append("Resting heart rate (7-day mean) above its SWC band this week: "
                  + (", ".join(hr_names) if hr_names else "nobody"))
-    episodes = below_band_episodes(table)
+    episodes = below_swc_episodes(table)
     long_runs = {s: [r for r in runs if r[0] != r[1]] for s, runs in episodes.items()}
-    lines.append("Every run of 7-day ln-RMSSD below the band this season (first - last day):")
+    lines.append("Every run of 7-day ln-RMSSD below the SWC band this season (first - last day):")
     for s in sorted(long_runs):
         if long_runs[s]:
             lines.append(f"  {s}: " + "; ".join(f"{a} - {b}" for a, b in long_runs[s]))
@@ -399,12 +422,17 @@ def _summary(run, *, lab, agree, ectopy, figures, out, meta, folder, report=None
             lines.append(f"  {r.subject} {r.date} {r.source}: {r.quality_reason}")
     # ectopy caution
     lines.append("")
-    frequent = {s: d for s, d in ectopy.items() if d.get("n_caution", 0) > d["n_files"] / 2}
+    from .._premature import caution_counts
+
+    # one counting rule with `rrkit daily` and the trend figures: the day's morning window
+    counts = caution_counts(table)
+    frequent = {s: c for s, c in counts.items() if c.firm and c.majority}
     if frequent:
-        for s, d in sorted(frequent.items()):
-            lines.append(f"CAUTION {s}: frequent premature beats, {d['per_hour']:.0f} per hour "
-                         f"over {d['n_files']} mornings ({d['n_caution']} above the caution "
-                         "level).")
+        for s, c in sorted(frequent.items()):
+            rate = ectopy.get(s, {}).get("per_hour", float("nan"))
+            lines.append(f"CAUTION {s}: the premature-beat caution on {c.text()}"
+                         + (f" (about {rate:.0f} premature beats per hour)" if rate == rate
+                            else "") + ".")
         lines.append("  rrkit does not diagnose. Frequent premature beats belong with a "
                      "clinician: pass these recordings on, and do not read more into them here.")
     else:
@@ -414,10 +442,11 @@ def _summary(run, *, lab, agree, ectopy, figures, out, meta, folder, report=None
         lines.append("")
         lines.append("Lab protocol (segments from the events table):")
         for r in lab.itertuples(index=False):
+            resp = (f"  breathing {r.resp_hz * 60:4.1f}/min" if r.resp_hz == r.resp_hz
+                    else "  breathing    -    ")
             lines.append(f"  {r.subject} {r.window:<18} HR {r.mean_hr_bpm:5.1f} bpm  "
-                         f"RMSSD {r.rmssd_ms:6.1f} ms  LF/HF {r.lf_hf:5.2f}"
-                         + ("  (note: breathing below the HF band)" if "breath" in str(r.notes)
-                            else ""))
+                         f"RMSSD {r.rmssd_ms:6.1f} ms  LF/HF {r.lf_hf:5.2f}{resp}"
+                         + _breathing_remark(str(r.notes)))
     # agreement
     if agree is not None:
         lines.append("")
@@ -441,7 +470,9 @@ def _summary(run, *, lab, agree, ectopy, figures, out, meta, folder, report=None
     for k in ("daily_csv", "store", "errors_csv", "provenance"):
         if k in run.outputs:
             lines.append(f"  {k:<12} {run.outputs[k]}")
-    lines.append(f"  {'figures':<12} {out / 'figures'} ({len(figures)} PNG files)")
+    lines.append(f"  {'agreement':<12} {out / 'agreement'} (the files of rrkit agree --search)")
+    n_fig = sum(1 for f in figures if Path(f).parent == out / "figures")
+    lines.append(f"  {'figures':<12} {out / 'figures'} ({n_fig} PNG files)")
     if report is not None:
         lines.append(f"  {'report':<12} {report} (open it in a browser)")
     lines.append("")

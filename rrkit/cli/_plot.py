@@ -75,7 +75,7 @@ def command(file: Path, kind: str, output: Path | None, window: str | None, meth
                     if col not in load.columns:
                         raise InputError(f"{load_csv}: training-load table lacks column {col!r}; "
                                          "expected date, subject, load_au")
-            athlete_trend(daily, subject, out, load=load)
+            athlete_trend(daily, subject, out, load=load, baselines=_baselines_beside(file))
     click.echo(f"wrote {out}")
     return 0
 
@@ -110,6 +110,18 @@ def _not_a_daily_table(file: Path) -> None:
     if {"subject", "date", "ln_rmssd_7d"} <= names:
         raise InputError(f"{file} is a daily table, not a recording",
                          hint="draw it with --kind trend --subject ID, or --kind overview")
+
+
+def _baselines_beside(file: Path):
+    """The baseline settings in the provenance.json that `rrkit daily` writes beside its table
+    (None when there is none, or it cannot be read: the figure then names the defaults)."""
+    import json
+
+    prov = file.with_name("provenance.json")
+    try:
+        return json.loads(prov.read_text(encoding="utf-8"))["settings"]["baselines"]
+    except (OSError, ValueError, KeyError, TypeError):
+        return None
 
 
 def _read_daily(file: Path):

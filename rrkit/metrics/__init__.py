@@ -18,6 +18,7 @@ import numpy as np
 from .._validation import check_range
 from ..errors import InputError
 from ..recording import Recording
+from ._edr import ecg_breathing_hz
 from ._settings import DOMAINS, PSD_METHODS, TASK_FORCE_BANDS, Bands, MetricsSettings
 from .nonlinear import NONLINEAR_KEYS, nonlinear_domain
 from .spectral import FREQUENCY_KEYS, band_power, frequency_domain
@@ -35,6 +36,7 @@ __all__ = [
     "MetricsResult",
     "MetricsSettings",
     "Spectrum",
+    "ecg_breathing_hz",
     "metrics",
     "spectrum",
 ]

@@ -107,8 +107,8 @@ class MetricsSettings:
     lomb_oversample : int
         Lomb-Scargle frequency grid step ``1 / (oversample * T)``, 4 (common practice).
     ar_order : int
-        Burg autoregressive model order, 16 (common practice; Boardman et al. 2002 on order
-        selection).
+        Burg autoregressive model order, 16 (common practice; Boardman et al. 2002, Physiol
+        Meas 23:325-336, compare order-selection criteria on short HRV segments).
     ar_calibrate : bool
         Scale the AR spectrum to integrate to the variance of the fitted series, True (rrkit's
         choice; see `rrkit.metrics.spectral`).
@@ -133,7 +133,7 @@ class MetricsSettings:
         Tolerance as a fraction of the SD (ddof=1) of the NN intervals, 0.2 (Richman & Moorman
         2000).
     sampen_min_beats : int
-        Fewest NN intervals for SampEn, 100 (10**m, a rule of thumb from memory).
+        Fewest NN intervals for SampEn, 100 (rrkit's choice: 10**m templates for m = 2).
     resp_peak_halfwidth_hz : float
         Half-width around a low-frequency peak counted as "narrow", 0.02 Hz (rrkit's choice).
     resp_peak_share : float

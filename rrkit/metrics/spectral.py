@@ -371,10 +371,12 @@ def frequency_domain(runs: list[tuple[np.ndarray, np.ndarray]], s: MetricsSettin
     ``ln_lf``, ``ln_hf`` are natural logs of the powers in ms^2. The band minimums apply to the
     longest run: HF needs ``min_hf_s``, LF ``min_lf_s``, VLF ``min_vlf_s``.
 
-    ``resp_hz`` estimates the breathing rate: the dominant low-frequency peak when one narrow
-    peak (``+/- resp_peak_halfwidth_hz``) below the HF band holds at least ``resp_peak_share``
-    of the total power, or the LF-band peak nearest a stated breathing rate below the HF band;
-    otherwise the HF peak frequency (respiratory sinus arrhythmia).
+    ``resp_hz`` estimates the breathing rate: the HF peak frequency (respiratory sinus
+    arrhythmia), or the LF-band peak nearest a given breathing rate below the HF band. When one
+    narrow peak (``+/- resp_peak_halfwidth_hz``) below the HF band holds at least
+    ``resp_peak_share`` of the total power and no breathing rate is given, the spectrum cannot
+    tell slow breathing from a strong ~0.1 Hz oscillation: a note says so and ``resp_hz`` is
+    NaN. Rates outside `PLAUSIBLE_BREATHING_HZ` are never reported (see `_breathing`).
     """
     out = dict.fromkeys(FREQUENCY_KEYS, _NAN)
     notes: list[str] = []
@@ -425,13 +427,32 @@ def frequency_domain(runs: list[tuple[np.ndarray, np.ndarray]], s: MetricsSettin
     return out, notes, est
 
 
+#: Breathing rates rrkit will report or use, Hz: 3 to 42 breaths per minute (rrkit's choice: it
+#: covers paced slow breathing, about 4-7 per minute, resting rates of 12-20 and light exercise;
+#: a spectral peak outside it is not called a breathing rate).
+PLAUSIBLE_BREATHING_HZ = (0.05, 0.70)
+
+
+def _per_min(hz: float) -> str:
+    return f"{hz * 60:.1f}/min"
+
+
 def _breathing(est: PsdEstimate, s: MetricsSettings, out: dict, notes: list[str],
                breathing_hz: float | None) -> None:
+    """The breathing note and ``resp_hz``.
+
+    The spectrum alone cannot tell slow breathing from a strong ~0.1 Hz oscillation of heart
+    rate (the baroreflex rhythm that standing strengthens): both put one narrow peak below the
+    HF band. So the note claims breathing only for a breathing rate that is given (protocol,
+    events table, or measured, such as an ECG-derived rate); a dominant low peak without one is
+    described as what it is, and ``resp_hz`` is then NaN rather than a guess. A rate outside
+    `PLAUSIBLE_BREATHING_HZ` is never reported.
+    """
     b = s.bands
     f, p = est.freqs_hz, est.psd_ms2_hz
     total = band_power(est, (b.vlf[0], b.hf[1]))
     low = _band(f, (b.vlf[0], b.hf[0]))
-    warned = False
+    dominant = None
     if low.stop > low.start and total > 0:
         hw = s.resp_peak_halfwidth_hz
         known = None if est.known is None else est.known.get(("low_peak", low.start, low.stop, hw))
@@ -444,19 +465,40 @@ def _breathing(est: PsdEstimate, s: MetricsSettings, out: dict, notes: list[str]
             fpk, near_power = known
         share = near_power / total
         if share >= s.resp_peak_share:
-            out["resp_hz"] = fpk
+            dominant = (fpk, share)
+    lo_ok, hi_ok = PLAUSIBLE_BREATHING_HZ
+    if breathing_hz is not None and not lo_ok <= breathing_hz <= hi_ok:
+        notes.append(f"the given breathing rate {breathing_hz:.3f} Hz ({_per_min(breathing_hz)}) "
+                     f"is outside the plausible {_per_min(lo_ok)} to {_per_min(hi_ok)} and was "
+                     "not used")
+        breathing_hz = None
+    if breathing_hz is not None:
+        if breathing_hz < b.hf[0]:
+            pk = _peak(est, (max(b.vlf[0], breathing_hz - 0.03),
+                             min(b.hf[0], breathing_hz + 0.03)))
+            out["resp_hz"] = pk if np.isfinite(pk) else breathing_hz
             notes.append(
-                f"breathing below the HF band: one narrow peak at {fpk:.3f} Hz "
-                f"({fpk * 60:.1f}/min) holds {100 * share:.0f}% of the total power; respiratory "
-                f"power falls into LF, so LF, HF and LF/HF do not carry their usual meaning "
-                f"(resp_hz is an estimate)")
-            warned = True
-    if breathing_hz is not None and breathing_hz < b.hf[0]:
-        if not warned:
-            pk = _peak(est, (max(b.vlf[0], breathing_hz - 0.03), min(b.hf[0], breathing_hz + 0.03)))
-            if np.isfinite(pk):
-                out["resp_hz"] = pk
+                f"breathing at {breathing_hz:.3f} Hz ({_per_min(breathing_hz)}, given) lies below "
+                f"the HF band ({b.hf[0]:g} Hz): respiratory power falls into LF, so LF, HF and "
+                f"LF/HF do not carry their usual meaning")
+        elif dominant is not None and abs(dominant[0] - breathing_hz) > 0.03:
+            notes.append(
+                f"a dominant narrow peak at {dominant[0]:.3f} Hz below the HF band holds "
+                f"{100 * dominant[1]:.0f}% of the total power while breathing is at "
+                f"{breathing_hz:.3f} Hz ({_per_min(breathing_hz)}, given): a strong oscillation "
+                f"of heart rate (such as the baroreflex rhythm), not breathing")
+    elif dominant is not None:
+        fpk, share = dominant
+        out["resp_hz"] = _NAN
         notes.append(
-            f"stated breathing rate {breathing_hz:.3f} Hz ({breathing_hz * 60:.1f}/min) lies below "
-            f"the HF band ({b.hf[0]:g} Hz); respiratory power falls into LF, so LF, HF and LF/HF "
-            f"do not carry their usual meaning")
+            f"a dominant narrow peak at {fpk:.3f} Hz ({fpk * 60:.1f} cycles/min) below the HF "
+            f"band holds {100 * share:.0f}% of the total power: slow breathing, or a strong "
+            f"~0.1 Hz oscillation of heart rate (the baroreflex rhythm, strengthened by "
+            f"standing); the spectrum alone cannot tell which. If it is breathing, LF, HF and "
+            f"LF/HF do not carry their usual meaning. resp_hz: NaN; give the breathing rate "
+            f"(events table breathing_hz or breaths_per_min) to decide")
+    r = out.get("resp_hz", _NAN)
+    if np.isfinite(r) and not lo_ok <= r <= hi_ok:
+        notes.append(f"resp_hz: NaN, the peak at {r:.3f} Hz ({_per_min(r)}) is outside the "
+                     f"plausible breathing rates ({_per_min(lo_ok)} to {_per_min(hi_ok)})")
+        out["resp_hz"] = _NAN

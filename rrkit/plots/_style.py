@@ -13,7 +13,7 @@ from __future__ import annotations
 
 from pathlib import Path
 
-__all__ = ["DIVERGING_CMAP", "LABEL_STYLE", "OKABE_ITO", "new_figure", "save"]
+__all__ = ["DIVERGING_CMAP", "INK", "LABEL_STYLE", "OKABE_ITO", "new_figure", "save"]
 
 OKABE_ITO = {
     "black": "#000000",
@@ -25,6 +25,18 @@ OKABE_ITO = {
     "vermillion": "#D55E00",
     "purple": "#CC79A7",
     "grey": "#999999",
+}
+
+#: rrkit's neutral inks: figures that compare lines (agreement, trend, spectrum) draw them in
+#: these greys and tell them apart by dash style and width; ``accent`` marks the one thing a
+#: reader should find first (a flag, an off-scale value).
+INK = {
+    "ink": "#1f1f1f",
+    "dark": "#4a4a4a",
+    "mid": "#7a7a7a",
+    "light": "#b3b3b3",
+    "faint": "#e4e4e4",
+    "accent": "#b0361f",
 }
 
 #: beat class -> (colour, marker, legend text)

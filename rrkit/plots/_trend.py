@@ -5,14 +5,16 @@ from __future__ import annotations
 import numpy as np
 
 from ..errors import InputError
-from ._style import DIVERGING_CMAP, OKABE_ITO, new_figure, save
+from ._style import DIVERGING_CMAP, INK, new_figure, save
 
-__all__ = ["athlete_trend", "band_position", "squad_overview"]
+__all__ = ["athlete_trend", "squad_overview", "swc_label", "swc_position"]
 
 _NEEDED = ("subject", "date", "quality", "ln_rmssd", "ln_rmssd_7d")
 _LIMIT = 3.0  # colour scale saturates at 3 half-bands from the middle
-_BAND_NAMES = (("ln_rmssd_band_low", "ln_rmssd_band_high"), ("band_low", "band_high"),
-               ("ln_rmssd_band_lo", "ln_rmssd_band_hi"))
+# the daily table's names first; then the names of tables written before the SWC names
+_BAND_NAMES = (("ln_rmssd_swc_low", "ln_rmssd_swc_high"), ("ln_rmssd_band_low",
+                                                          "ln_rmssd_band_high"),
+               ("band_low", "band_high"), ("ln_rmssd_band_lo", "ln_rmssd_band_hi"))
 
 
 def _check(daily, needed=_NEEDED) -> None:
@@ -23,21 +25,23 @@ def _check(daily, needed=_NEEDED) -> None:
                          hint=f"columns found: {list(daily.columns)[:12]}...")
 
 
-def _band_cols(daily) -> tuple[str, str]:
+def _swc_cols(daily) -> tuple[str, str]:
     for lo, hi in _BAND_NAMES:
         if lo in daily.columns and hi in daily.columns:
             return lo, hi
-    raise InputError("the daily table has no ln-RMSSD band columns; expected one of "
+    raise InputError("the daily table has no ln-RMSSD SWC band columns; expected one of "
                      + ", ".join(f"{lo}/{hi}" for lo, hi in _BAND_NAMES))
 
 
-def band_position(daily):
-    """Where each day's 7-day ln-RMSSD mean sits in its athlete's normal band.
+def swc_position(daily):
+    """Where each day's 7-day ln-RMSSD mean sits in its athlete's SWC band.
 
-    Returns a Series: 0 = the middle of the band, -1 its lower edge, +1 its upper edge (below
-    -1 means below the band). NaN where the 7-day mean or the band is not defined.
+    Returns a Series: 0 = the middle of the band (the baseline mean), -1 its lower edge, +1
+    its upper edge (below -1 means below the band); multiplied by ``swc_sd`` it is the distance
+    from the baseline mean in baseline SDs. NaN where the 7-day mean or the band is not
+    defined.
     """
-    lo_c, hi_c = _band_cols(daily)
+    lo_c, hi_c = _swc_cols(daily)
     lo = daily[lo_c].astype(float)
     hi = daily[hi_c].astype(float)
     mid = (lo + hi) / 2.0
@@ -60,9 +64,31 @@ def _shade_phases(ax, phases) -> None:
                 va="bottom", fontsize=8, color="#444444", clip_on=False)
 
 
-def athlete_trend(daily, subject: str, path=None, *, load=None, phases=None,
+def _baselines(baselines):
+    from ..daily import BaselineSettings
+
+    if baselines is None:
+        return BaselineSettings()
+    if isinstance(baselines, BaselineSettings):
+        return baselines
+    if isinstance(baselines, dict):
+        known = {k: v for k, v in baselines.items() if k in BaselineSettings.__slots__}
+        return BaselineSettings(**known)
+    raise InputError(f"baselines must be a BaselineSettings or its dict; got {baselines!r}")
+
+
+def swc_label(baselines=None) -> str:
+    """The legend text of the SWC band, with the baseline it rests on and its lag."""
+    b = _baselines(baselines)
+    lag = (f"ending {b.baseline_lag_days} day{'' if b.baseline_lag_days == 1 else 's'} before "
+           "each date" if b.baseline_lag_days else "ending on each date")
+    return (f"SWC band: baseline mean ± {b.swc_sd:g} SD "
+            f"({b.baseline_days}-day baseline {lag})")
+
+
+def athlete_trend(daily, subject: str, path=None, *, load=None, phases=None, baselines=None,
                   title: str | None = None, dpi: int = 120):
-    """One athlete's mornings over time: daily ln-RMSSD, the 7-day mean and the normal band.
+    """One athlete's mornings over time: daily ln-RMSSD, the 7-day mean and the SWC band.
 
     Parameters
     ----------
@@ -78,6 +104,9 @@ def athlete_trend(daily, subject: str, path=None, *, load=None, phases=None,
         as bars on a second axis. Several rows of one day are summed.
     phases : sequence of (name, first_date, last_date), optional
         Training phases to label along the top.
+    baselines : BaselineSettings or dict, optional
+        The settings the table was made with (``provenance.json`` holds them), for the
+        legend's description of the band and its baseline lag; default `BaselineSettings()`.
     title : str, optional
         Figure title (default: the subject).
     dpi : int
@@ -89,87 +118,132 @@ def athlete_trend(daily, subject: str, path=None, *, load=None, phases=None,
 
     Notes
     -----
-    Points are the daily ln-RMSSD of ``ok`` days (filled) and ``flagged`` days (open); rejected
-    and missing days are ticked along the bottom. The line is the 7-day rolling mean (Plews et
-    al. 2012, Eur J Appl Physiol 112:3729-3741, doi:10.1007/s00421-012-2354-4); it is marked
-    where it lies below the band. The shaded band is the athlete's normal band from the daily
-    table.
+    Top panel: the daily ln-RMSSD of ``ok`` days (dots) and ``flagged`` days (open diamonds,
+    not in any mean; values beyond the axis are drawn at its edge as arrows), the 7-day rolling
+    mean (Plews et al. 2012, Eur J Appl Physiol 112:3729-3741, doi:10.1007/s00421-012-2354-4)
+    with triangles where it lies below or above the band, and the smallest-worthwhile-change
+    (SWC) band, baseline mean ± 0.5 baseline SD (the sports-science convention after Hopkins'
+    smallest worthwhile change, used for ln-RMSSD in the line of Plews et al. 2012; common
+    practice), hatched in grey. Rejected and missing days are ticked along the
+    bottom. Lower panel: the 7-day mean's distance from the baseline mean in baseline SDs, with
+    the band's edges at ± ``swc_sd``. When the athlete's mornings carry the premature-beat
+    caution (counted as in `rrkit.daily` tables, one rule everywhere), the caution is written
+    under the title.
     """
     import pandas as pd
 
+    from .._premature import caution_counts
+
     _check(daily)
-    lo_c, hi_c = _band_cols(daily)
+    lo_c, hi_c = _swc_cols(daily)
+    b = _baselines(baselines)
     d = daily[daily["subject"].astype(str) == str(subject)].copy()
     if d.empty:
         raise InputError(f"subject {subject!r} is not in the daily table",
                          hint=f"subjects: {sorted(daily['subject'].astype(str).unique())}")
     d["date"] = pd.to_datetime(d["date"])
     d = d.sort_values("date")
-    fig = new_figure(11.0, 4.8)
-    ax = fig.add_subplot(1, 1, 1)
+    fig = new_figure(11.0, 6.4)
+    grid = fig.add_gridspec(2, 1, height_ratios=[3.0, 1.0])
+    ax = fig.add_subplot(grid[0])
+    ax_z = fig.add_subplot(grid[1], sharex=ax)
+    ax2 = None
     if load is not None and len(load):
         lo_ = load[load["subject"].astype(str) == str(subject)].copy()
         lo_["date"] = pd.to_datetime(lo_["date"])
         per_day = lo_.groupby("date")["load_au"].sum()
         ax2 = ax.twinx()
-        ax2.bar(per_day.index, per_day.to_numpy(), width=0.8, color=OKABE_ITO["grey"],
-                alpha=0.35, label="training load")
-        ax2.set_ylabel("training load (session RPE x min, AU)", color="#555555")
-        ax2.set_ylim(0, max(float(per_day.max()) * 2.6, 1.0))
-        ax2.tick_params(axis="y", colors="#555555")
+        ax2.bar(per_day.index, per_day.to_numpy(), width=0.8, color=INK["faint"],
+                edgecolor=INK["light"], lw=0.3, label="training load (right axis)")
+        ax2.set_ylabel("training load (session RPE x min, AU)", color=INK["mid"])
+        ax2.set_ylim(0, max(float(per_day.max()) * 3.5, 1.0))  # bars stay in the lower part
+        ax2.tick_params(axis="y", colors=INK["mid"])
         ax.set_zorder(ax2.get_zorder() + 1)
         ax.patch.set_visible(False)
-    ax.fill_between(d["date"], d[lo_c].astype(float), d[hi_c].astype(float),
-                    color=OKABE_ITO["green"], alpha=0.18, lw=0, step="mid",
-                    label="normal band")
+    low = d[lo_c].astype(float)
+    high = d[hi_c].astype(float)
+    ax.fill_between(d["date"], low, high, step="mid", facecolor="none", edgecolor=INK["light"],
+                    hatch="////", lw=0.0, zorder=1, label=swc_label(b))
+    for edge in (low, high):
+        ax.step(d["date"], edge, where="mid", color=INK["mid"], lw=0.7, zorder=1)
     q = d["quality"].astype(str)
     ok = q == "ok"
     fl = q == "flagged"
-    ax.scatter(d.loc[ok, "date"], d.loc[ok, "ln_rmssd"], s=18, color=OKABE_ITO["blue"],
+    ax.scatter(d.loc[ok, "date"], d.loc[ok, "ln_rmssd"], s=14, color=INK["dark"], lw=0,
                zorder=3, label="daily ln-RMSSD")
     # the y range follows the values the mean uses; a flagged value far outside it (an
-    # artifact-inflated window) is drawn at the edge of the axis instead of squashing the rest
-    vals = pd.concat([d.loc[ok, "ln_rmssd"], d["ln_rmssd_7d"], d[lo_c], d[hi_c]]).astype(float)
+    # artifact-inflated window) is drawn at the edge of the axis as an arrow
+    vals = pd.concat([d.loc[ok, "ln_rmssd"], d["ln_rmssd_7d"], low, high]).astype(float)
     vals = vals[np.isfinite(vals)]
     lo_y, hi_y = (float(vals.min()), float(vals.max())) if vals.size else (0.0, 1.0)
     pad = 0.15 * (hi_y - lo_y + 0.1)
     y_lim = (lo_y - 2 * pad, hi_y + pad)
     if fl.any():
-        y_fl = d.loc[fl, "ln_rmssd"].astype(float).clip(y_lim[0] + 0.02 * pad, y_lim[1] - 0.1 * pad)
-        off = bool((y_fl != d.loc[fl, "ln_rmssd"].astype(float)).any())
-        ax.scatter(d.loc[fl, "date"], y_fl, s=30, facecolor="white",
-                   edgecolor=OKABE_ITO["orange"], lw=1.4, marker="^", zorder=3,
-                   label="flagged (not in the mean" + ("; off-scale ones at the edge)" if off
-                                                      else ")"))
-    ax.plot(d["date"], d["ln_rmssd_7d"].astype(float), color=OKABE_ITO["black"], lw=1.8,
+        y_raw = d.loc[fl, "ln_rmssd"].astype(float)
+        inside = (y_raw >= y_lim[0]) & (y_raw <= y_lim[1])
+        ax.scatter(d.loc[fl, "date"][inside], y_raw[inside], s=26, facecolor="white",
+                   edgecolor=INK["dark"], lw=1.0, marker="D", zorder=3,
+                   label="flagged day (not in any mean)")
+        for up, marker in ((True, "^"), (False, "v")):
+            off = ~inside & ((y_raw > y_lim[1]) if up else (y_raw < y_lim[0]))
+            if off.any():
+                edge = y_lim[1] - 0.06 * pad if up else y_lim[0] + 0.35 * pad
+                ax.scatter(d.loc[fl, "date"][off], np.full(int(off.sum()), edge), s=40,
+                           marker=marker, color=INK["accent"], zorder=5,
+                           label=f"flagged day off scale ({'above' if up else 'below'})")
+    ax.plot(d["date"], d["ln_rmssd_7d"].astype(float), color=INK["ink"], lw=2.0,
             label="7-day mean", zorder=4)
-    if "below_band" in d.columns:
-        below = d["below_band"].fillna(False).astype(bool)
-        if below.any():
-            ax.scatter(d.loc[below, "date"], d.loc[below, "ln_rmssd_7d"], s=26,
-                       color=OKABE_ITO["vermillion"], marker="s", zorder=5,
-                       label="7-day mean below band")
+    for col, marker, text in (("below_swc", "v", "7-day mean below the SWC band"),
+                              ("above_swc", "^", "7-day mean above the SWC band")):
+        if col in d.columns:
+            sel = d[col].fillna(False).astype(bool)
+            if sel.any():
+                ax.scatter(d.loc[sel, "date"], d.loc[sel, "ln_rmssd_7d"], s=22,
+                           color=INK["accent"] if col == "below_swc" else "white",
+                           edgecolor=INK["accent"], lw=0.8, marker=marker, zorder=5,
+                           label=text)
     ax.set_ylim(*y_lim)
-    y_tick = ax.get_ylim()[0] + 0.04 * (ax.get_ylim()[1] - ax.get_ylim()[0])
+    y_tick = y_lim[0] + 0.04 * (y_lim[1] - y_lim[0])
     rj = q == "rejected"
     ms = q == "missing"
     if rj.any():
-        ax.scatter(d.loc[rj, "date"], np.full(int(rj.sum()), y_tick), marker="x", s=36,
-                   color=OKABE_ITO["vermillion"], zorder=3, label="rejected / failed file")
+        ax.scatter(d.loc[rj, "date"], np.full(int(rj.sum()), y_tick), marker="x", s=30,
+                   color=INK["ink"], lw=1.0, zorder=3, label="rejected / failed file")
     if ms.any():
-        ax.scatter(d.loc[ms, "date"], np.full(int(ms.sum()), y_tick), marker="|", s=60,
-                   color=OKABE_ITO["grey"], zorder=3, label="no recording")
+        ax.scatter(d.loc[ms, "date"], np.full(int(ms.sum()), y_tick), marker="|", s=50,
+                   color=INK["light"], zorder=3, label="no recording")
     _shade_phases(ax, phases)
     ax.set_ylabel("ln-RMSSD (ln ms)")
-    ax.set_xlabel("date")
-    ax.grid(alpha=0.3)
+    ax.tick_params(labelbottom=False)
+    ax.grid(axis="y", color=INK["faint"], lw=0.6)
+    # lower panel: distance from baseline in baseline SDs
+    z = swc_position(d) * b.swc_sd
+    ax_z.axhspan(-b.swc_sd, b.swc_sd, facecolor="none", edgecolor=INK["light"], hatch="////",
+                 lw=0.0)
+    ax_z.axhline(0.0, color=INK["mid"], lw=0.7)
+    ax_z.plot(d["date"], z, color=INK["ink"], lw=1.4)
+    zmax = float(np.nanmax(np.abs(z))) if np.isfinite(z).any() else 1.0
+    ax_z.set_ylim(-max(1.5, 1.1 * zmax), max(1.5, 1.1 * zmax))
+    ax_z.set_ylabel("7-day mean −\nbaseline (SD)", fontsize=8.5)
+    ax_z.set_xlabel("date")
+    ax_z.grid(axis="y", color=INK["faint"], lw=0.6)
+    for a_ in (ax, ax_z):
+        a_.spines["top"].set_visible(False)
+        if ax2 is None or a_ is ax_z:
+            a_.spines["right"].set_visible(False)
     handles, labels = ax.get_legend_handles_labels()
-    if load is not None and len(load):
-        h2, l2 = fig.axes[-1].get_legend_handles_labels()
+    if ax2 is not None:
+        h2, l2 = ax2.get_legend_handles_labels()
         handles, labels = handles + h2, labels + l2
-    ax.legend(handles, labels, loc="upper center", bbox_to_anchor=(0.5, -0.13), fontsize=8,
-              ncol=5, frameon=False)
-    fig.suptitle(title or f"{subject}: morning ln-RMSSD", fontsize=12)
+    ax_z.legend(handles, labels, loc="upper center", bbox_to_anchor=(0.5, -0.45), fontsize=8,
+                ncol=3, frameon=False)
+    head = title or f"{subject}: morning ln-RMSSD"
+    count = caution_counts(d).get(str(subject))
+    if count is not None:
+        head += ("\ncaution: the premature-beat caution on " + count.text()
+                 + ("" if count.firm else " (counted among other artifacts, may be noise)")
+                 + "; rrkit does not diagnose, a clinician should see these recordings")
+    fig.suptitle(head, fontsize=11 if count is not None else 12)
     if path is not None:
         save(fig, path, dpi=dpi)
     return fig
@@ -178,8 +252,8 @@ def athlete_trend(daily, subject: str, path=None, *, load=None, phases=None,
 def squad_overview(daily, path=None, *, phases=None, title: str | None = None, dpi: int = 120):
     """The squad at a glance: one row per athlete, one column per day.
 
-    Each cell is the athlete's 7-day ln-RMSSD mean relative to their normal band (see
-    `band_position`): white inside the band's middle, blue above, red below; the band edges
+    Each cell is the athlete's 7-day ln-RMSSD mean relative to their SWC band (see
+    `swc_position`): white at the baseline mean, blue above, red below; the band edges
     are at -1 and +1 (the colours saturate at -3 and +3). Days whose 7-day mean is not
     defined are grey. A dot marks the days the daily table flags as below the band.
 
@@ -206,7 +280,7 @@ def squad_overview(daily, path=None, *, phases=None, title: str | None = None, d
     _check(daily)
     d = daily.copy()
     d["date"] = pd.to_datetime(d["date"])
-    d["_pos"] = band_position(d)
+    d["_pos"] = swc_position(d)
     grid = d.pivot_table(index="subject", columns="date", values="_pos", aggfunc="mean",
                          dropna=False)
     subjects = sorted(d["subject"].astype(str).unique())
@@ -225,14 +299,14 @@ def squad_overview(daily, path=None, *, phases=None, title: str | None = None, d
     from matplotlib.patches import Patch
 
     handles = [Patch(facecolor="#DDDDDD", edgecolor="white",
-                     label="no 7-day mean, or band not defined yet (baseline building up)")]
-    if "below_band" in d.columns:
-        b = d[d["below_band"].fillna(False).astype(bool)]
+                     label="no 7-day mean, or SWC band not defined yet (baseline building up)")]
+    if "below_swc" in d.columns:
+        b = d[d["below_swc"].fillna(False).astype(bool)]
         xi = (b["date"] - days[0]).dt.days.to_numpy()
         yi = np.array([subjects.index(str(s)) for s in b["subject"]], dtype=float)
         if len(b):
             handles.append(ax.scatter(xi, yi, s=9, color="white", edgecolor="#000000", lw=0.5,
-                                      label="below band (flag in the daily table)"))
+                                      label="below the SWC band (below_swc in the daily table)"))
     ax.legend(handles=handles, loc="upper center", bbox_to_anchor=(0.5, -0.09), fontsize=8,
               ncol=2, frameon=False)
     ax.set_yticks(np.arange(len(subjects)), subjects)
@@ -247,8 +321,8 @@ def squad_overview(daily, path=None, *, phases=None, title: str | None = None, d
                 ax.text(xi + 0.5, -0.6, name, fontsize=8, va="bottom", ha="left")
     ax.set_xlabel("date (weeks start on Monday)")
     cb = fig.colorbar(mesh, ax=ax, shrink=0.9, pad=0.01, ticks=[-3, -2, -1, 0, 1, 2, 3])
-    cb.set_label("7-day ln-RMSSD in the band\n(-1 lower edge, +1 upper edge)", fontsize=8)
-    fig.suptitle(title or "Squad overview: 7-day ln-RMSSD relative to each athlete's band",
+    cb.set_label("7-day ln-RMSSD in the SWC band\n(-1 lower edge, +1 upper edge)", fontsize=8)
+    fig.suptitle(title or "Squad overview: 7-day ln-RMSSD relative to each athlete's SWC band",
                  fontsize=12)
     if path is not None:
         save(fig, path, dpi=dpi)

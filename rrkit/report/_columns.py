@@ -1,7 +1,8 @@
 """The daily-table columns the report reads, in one place.
 
 Each key is the report's own name for a quantity; the value lists the daily-table column names
-that hold it, the current name first. The first name present in a table is used, so a renamed
+that hold it, the current name first (then the name rrkit 0.1.0 wrote, so older tables still
+read). The first name present in a table is used, so a renamed
 column (for example a band renamed to the smallest-worthwhile-change wording) needs one edit
 here and nothing else in the report. Keys marked optional may be absent: the report then leaves
 that part out.
@@ -24,16 +25,16 @@ COLUMNS: dict[str, tuple[str, ...]] = {
     "ln_rmssd": ("ln_rmssd",),
     "ln_7d": ("ln_rmssd_7d",),
     "n_ok_7d": ("n_ok_7d",),
-    "ln_low": ("ln_rmssd_band_low", "ln_rmssd_swc_low"),
-    "ln_high": ("ln_rmssd_band_high", "ln_rmssd_swc_high"),
-    "ln_below": ("below_band", "below_swc"),
-    "ln_above": ("above_band", "above_swc"),
+    "ln_low": ("ln_rmssd_swc_low", "ln_rmssd_band_low"),
+    "ln_high": ("ln_rmssd_swc_high", "ln_rmssd_band_high"),
+    "ln_below": ("below_swc", "below_band"),
+    "ln_above": ("above_swc", "above_band"),
     "n_ok_baseline": ("n_ok_baseline",),
     "hr_7d": ("mean_hr_bpm_7d",),
-    "hr_low": ("hr_band_low_bpm", "hr_swc_low_bpm", "mean_hr_bpm_swc_low"),
-    "hr_high": ("hr_band_high_bpm", "hr_swc_high_bpm", "mean_hr_bpm_swc_high"),
-    "hr_below": ("hr_below_band", "hr_below_swc"),
-    "hr_above": ("hr_above_band", "hr_above_swc"),
+    "hr_low": ("hr_swc_low_bpm", "hr_band_low_bpm"),
+    "hr_high": ("hr_swc_high_bpm", "hr_band_high_bpm"),
+    "hr_below": ("hr_below_swc", "hr_below_band"),
+    "hr_above": ("hr_above_swc", "hr_above_band"),
     "week_days": ("week_days",),
     "week_ok_days": ("week_ok_days",),
 }

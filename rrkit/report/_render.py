@@ -37,7 +37,7 @@ _KEY_SETTINGS = (
     ("baselines.baseline_days", "Baseline length (days)"),
     ("baselines.baseline_min_days", "Valid mornings a baseline needs"),
     ("baselines.baseline_lag_days", "Baseline ends this many days before the date"),
-    ("baselines.band_sd", "Band half-width (baseline SDs)"),
+    ("baselines.swc_sd", "SWC band half-width (baseline SDs)"),
     ("baselines.week_min_days", "Valid mornings a weekly value needs"),
 )
 
@@ -225,7 +225,7 @@ def render_report(run: RunFiles, *, week=None, load=None, phases=None, title=Non
         "n_failed": len(run.errors),
         "status_text": STATUS_TEXT,
         "status_rank": _STATUS_RANK,
-        "band_sd": _setting(run.settings, "baselines.band_sd", 0.5),
+        "band_sd": _setting(run.settings, "baselines.swc_sd", 0.5),
         "baseline_days": _setting(run.settings, "baselines.baseline_days", 60),
         "baseline_min": _setting(run.settings, "baselines.baseline_min_days", 14),
         "rolling_min": _setting(run.settings, "baselines.rolling_min_days", 3),
