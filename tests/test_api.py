@@ -15,6 +15,8 @@ PUBLIC = {
     "RrkitWarning", "Spectrum", "Window", "__version__", "agreement", "analyze", "clean",
     "daily_table", "metrics", "parse_window", "read", "reference_table", "resolve_windows",
     "run_daily", "search_definitions", "spectrum", "windows", "write_rr",
+    # the settings tree of a daily run and the one window table
+    "DaySelection", "QualityRules", "window_rows",
 }
 
 
@@ -36,7 +38,7 @@ def test_public_functions_take_options_by_keyword_only():
         "parse_window": {"text"}, "resolve_windows": {"spec", "recording"},
         "agreement": {"reported", "reference"}, "reference_table": {"nights"},
         "search_definitions": {"reported", "nights"}, "daily_table": {"recordings"},
-        "run_daily": {"root", "outdir"},
+        "run_daily": {"root", "outdir"}, "window_rows": {"recording"},
     }
     for name, allowed in positional_ok.items():
         sig = inspect.signature(getattr(rrkit, name))

@@ -132,7 +132,7 @@ def _mornings(folder: Path, out: Path, *, tz: str, jobs, quiet: bool):
     mornings = folder / "mornings"
     manifest = mornings / "manifest.csv"
     return run_daily(mornings, out / "daily", manifest=manifest if manifest.is_file() else None,
-                     settings=DailySettings(tz=tz), jobs=jobs,
+                     settings=DailySettings.from_options(tz=tz), jobs=jobs,
                      progress=None if not quiet else False,
                      command=["rrkit", "demo", str(out)])
 
@@ -161,7 +161,7 @@ def _nights(folder: Path, out: Path, *, quiet: bool = True):
     wearable's reported values; writes the ranking and the best combination's statistics."""
     import pandas as pd
 
-    from .._agreement_search import search_definitions
+    from ..agreement import search_definitions
     from ..batch import read_manifest
     from ..io import read
 

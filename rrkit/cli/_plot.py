@@ -15,6 +15,7 @@ from pathlib import Path
 import click
 
 from ..errors import InputError
+from ._spectral_options import psd_option
 
 _KINDS = ("diagnostic", "trend", "overview")
 
@@ -31,9 +32,7 @@ _KINDS = ("diagnostic", "trend", "overview")
                    "start:60+300 (see docs/windows.md). Default: the whole recording.")
 @click.option("--clean", "method", default="drr", show_default=True, metavar="METHOD",
               help="diagnostic: artifact method (drr, median, mad, none).")
-@click.option("--psd", default="welch", show_default=True,
-              type=click.Choice(["welch", "lomb", "ar"]),
-              help="diagnostic: spectrum method.")
+@psd_option("diagnostic: spectrum method.")
 @click.option("--unit", default="auto", show_default=True, type=click.Choice(["auto", "ms", "s"]),
               help="diagnostic: unit of the values in FILE.")
 @click.option("--subject", default=None, help="trend: the athlete to draw.")

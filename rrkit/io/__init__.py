@@ -5,8 +5,10 @@ store lives in `rrkit.io.store`.
 """
 
 from ._ecg import DEFAULT_DETECTOR, DETECTORS
+from ._events import read_events_table
 from ._read import KINDS, UNITS, read
 from ._wfdb_symbols import BEAT_SYMBOLS
 from ._write import write_rr
 
-__all__ = ["BEAT_SYMBOLS", "DEFAULT_DETECTOR", "DETECTORS", "KINDS", "UNITS", "read", "write_rr"]
+__all__ = ["BEAT_SYMBOLS", "DEFAULT_DETECTOR", "DETECTORS", "KINDS", "UNITS", "read",
+           "read_events_table", "write_rr"]

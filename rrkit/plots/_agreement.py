@@ -62,9 +62,8 @@ def bland_altman(result, *, path=None, ax=None, title: str | None = None,
     (Okabe-Ito palette). When the slope of the differences on the means is significant at the
     result's level, the fitted line is drawn dotted.
     """
-    from ..agreement import AgreementResult
-
-    if not isinstance(result, AgreementResult):
+    # duck-typed, so that the figures never import the agreement stage that draws them
+    if not all(hasattr(result, k) for k in ("stats", "pairs", "ratio", "summary_text")):
         raise InputError(f"result must be an AgreementResult; got {type(result).__name__}",
                          hint="build it with rrkit.agreement(reported, reference)")
     s = result.stats
