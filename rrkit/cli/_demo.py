@@ -92,6 +92,8 @@ def command(outdir: Path, data: Path | None, jobs: int | None, quiet: bool) -> i
     """
     import pandas as pd
 
+    from ..daily import premature_beat_rates
+
     folder = find_data(data)
     meta = json.loads((folder / _MARKER).read_text(encoding="utf-8"))
     tz = meta.get("time_zone", "UTC")
@@ -107,12 +109,12 @@ def command(outdir: Path, data: Path | None, jobs: int | None, quiet: bool) -> i
     lab = _lab(folder, out)
 
     prog.step(3, "nights: which window definition do the wearable's values resemble?")
-    agree = _nights(folder, out, quiet=quiet)
+    agree = _nights(folder, out, tz=tz, quiet=quiet)
 
     prog.step(4, "figures")
     load = pd.read_csv(folder / "training_load.csv") if (folder / "training_load.csv").is_file() \
         else None
-    ectopy = _ectopy_by_subject(daily_run.outputs["store"])
+    ectopy = premature_beat_rates(daily_run.outputs["store"])
     figures = _figures(folder, out, daily_run, load=load, meta=meta, ectopy=ectopy, agree=agree,
                        note=prog.note)
 
@@ -156,26 +158,21 @@ def _lab(folder: Path, out: Path):
     return lab
 
 
-def _nights(folder: Path, out: Path, *, quiet: bool = True):
+def _nights(folder: Path, out: Path, *, tz: str, quiet: bool = True):
     """Recompute the nights under every reference definition and rank them against the
     wearable's reported values; writes the ranking and the best combination's statistics."""
-    import pandas as pd
 
-    from ..agreement import search_definitions
-    from ..batch import read_manifest
-    from ..io import read
+    from ..agreement import read_reported, search_definitions
+    from ..batch import read_nights
 
     nights_dir = folder / "nights"
-    if not (nights_dir / "wearable_reports.csv").is_file():
+    reports = nights_dir / "wearable_reports.csv"
+    if not reports.is_file():
         return None
-    reported = pd.read_csv(nights_dir / "wearable_reports.csv")
-    entries, problems = read_manifest(nights_dir / "manifest.csv")
+    reported = read_reported(reports, metric="rmssd_ms")
+    nights, problems = read_nights(nights_dir, tz=tz, exclude=[reports])
     if problems:
-        raise InputError(f"{nights_dir / 'manifest.csv'}: {problems[0][2]}")
-    nights = []
-    for path, (_line, row) in sorted(entries.items()):
-        rec = read(path, subject=row["subject"])
-        nights.append(rec.replace(start=row["start"], subject=row["subject"]))
+        raise InputError(f"{problems[0][0]}: {problems[0][2]}", path=nights_dir)
     search = search_definitions(reported, nights, metric="rmssd_ms",
                                 progress=None if not quiet else False)
     agree_dir = out / "agreement"
@@ -186,31 +183,6 @@ def _nights(folder: Path, out: Path, *, quiet: bool = True):
     atomic_write_text(agree_dir / "agreement.txt",
                       search.summary_text() + "\n" + best.summary_text(), fsync=False)
     return search
-
-
-def _ectopy_by_subject(store_path: Path) -> dict[str, dict]:
-    """Premature beats per hour, per subject, from the cleaning audits in the batch's store.
-
-    ``per_hour`` is the mean over the subject's recordings of the audit's premature beats per
-    hour (the mornings all last about 6 minutes); ``n_caution`` counts the recordings whose
-    audit carries the frequent-premature-beats caution.
-    """
-    from ..io.store import read_store_index
-
-    index = read_store_index(store_path)
-    per: dict[str, dict] = {}
-    for row in index.itertuples(index=False):
-        summ = json.loads(row.clean_summary) if isinstance(row.clean_summary, str) else {}
-        d = per.setdefault(str(row.subject), {"rates": [], "n_files": 0, "n_caution": 0})
-        d["rates"].append(float(summ.get("ectopic_per_hour", float("nan"))))
-        d["n_files"] += 1
-        if summ.get("caution"):
-            d["n_caution"] += 1
-            d["caution"] = summ["caution"]
-    for d in per.values():
-        rates = [r for r in d.pop("rates") if r == r]
-        d["per_hour"] = sum(rates) / len(rates) if rates else float("nan")
-    return per
 
 
 def _phases(meta):
@@ -265,37 +237,9 @@ def _figures(folder, out, run, *, load, meta, ectopy, agree, note):
 
 
 # --------------------------------------------------------------------------------- summary
-def _since(table, subject: str) -> str | None:
-    """First date of the current unbroken run of below-band days for a subject."""
-    d = table[table["subject"].astype(str) == subject].sort_values("date")
-    flags = d["below_band"].fillna(False).astype(bool).to_numpy()
-    if not flags.size or not flags[-1]:
-        return None
-    i = flags.size - 1
-    while i > 0 and flags[i - 1]:
-        i -= 1
-    return str(d["date"].iloc[i])
-
-
-def below_band_episodes(table) -> dict[str, list[tuple[str, str]]]:
-    """Per subject, the (first, last) dates of each run of consecutive below-band days."""
-    out: dict[str, list[tuple[str, str]]] = {}
-    for subject, d in table.sort_values("date").groupby("subject"):
-        flags = d["below_band"].fillna(False).astype(bool).to_numpy()
-        dates = [str(x) for x in d["date"]]
-        runs, start = [], None
-        for i, f in enumerate(flags):
-            if f and start is None:
-                start = i
-            if (not f or i == flags.size - 1) and start is not None:
-                end = i if f else i - 1
-                runs.append((dates[start], dates[end]))
-                start = None
-        out[str(subject)] = runs
-    return out
-
-
 def _summary(run, *, lab, agree, ectopy, figures, out, meta, folder) -> str:
+    from ..daily import flag_runs, run_since
+
     table = run.table
     lines = []
     lines.append("rrkit demo: the invented rowing squad (a simulation, not real people)")
@@ -316,14 +260,14 @@ def _summary(run, *, lab, agree, ectopy, figures, out, meta, folder) -> str:
     names = sorted(this_week["subject"].astype(str).unique())
     if names:
         for s in names:
-            lines.append(f"  {s}: below band since {_since(table, s) or 'earlier this week'}")
+            lines.append(f"  {s}: below band since {run_since(table, s) or 'earlier this week'}")
     else:
         lines.append("  nobody")
     hr_up = table[(table["date"] >= week_start) & table["hr_above_band"].fillna(False)]
     hr_names = sorted(hr_up["subject"].astype(str).unique())
     lines.append("Resting heart rate (7-day mean) above its band this week: "
                  + (", ".join(hr_names) if hr_names else "nobody"))
-    episodes = below_band_episodes(table)
+    episodes = flag_runs(table)
     long_runs = {s: [r for r in runs if r[0] != r[1]] for s, runs in episodes.items()}
     lines.append("Every run of 7-day ln-RMSSD below the band this season (first - last day):")
     for s in sorted(long_runs):

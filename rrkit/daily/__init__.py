@@ -30,6 +30,7 @@ Int J Sports Physiol Perform 9(5):783-790. https://doi.org/10.1123/ijspp.2013-04
 from .._time import localize, zone_of
 from ._baselines import BaselineSettings, add_baselines, weekly_summary
 from ._days import select_days
+from ._flags import flag_runs, premature_beat_rates, run_since
 from ._settings import DAILY_METRICS, PICK_RULES, QUALITY_STATES, DailySettings, DaySelection
 from ._table import daily_table, measure_recording
 
@@ -42,8 +43,11 @@ __all__ = [
     "DaySelection",
     "add_baselines",
     "daily_table",
+    "flag_runs",
     "localize",
     "measure_recording",
+    "premature_beat_rates",
+    "run_since",
     "select_days",
     "weekly_summary",
     "zone_of",
