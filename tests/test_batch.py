@@ -163,8 +163,9 @@ def test_placement_manifest_utc_start_local_date(tmp_path):
                   executor=InlineExecutor()).table
     assert t["date"].tolist() == [dt.date(2026, 3, 2), dt.date(2026, 3, 3)]
     assert t["start_time"].tolist() == ["2026-03-02T00:30:00+01:00", "2026-03-03T07:00:00+01:00"]
+    utc = DailySettings.from_options(wake_start="00:00", wake_end="12:00")
     t_utc = run_daily(data, tmp_path / "out_utc", manifest=man, executor=InlineExecutor(),
-                      settings=DailySettings.from_options(wake_start="00:00", wake_end="12:00")).table
+                      settings=utc).table
     assert t_utc["date"].tolist()[0] == dt.date(2026, 3, 1)
 
 

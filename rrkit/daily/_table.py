@@ -128,23 +128,3 @@ def _measure_all(recordings: Iterable[Recording], s: DailySettings):
         row.update(subject=rec.subject, start=rec.start, source=rec.source or f"recording {i}")
         rows.append(row)
     return pd.DataFrame(rows)
-
-
-
-
-def _measure_all(recordings: Iterable[Recording], s: DailySettings):
-    import pandas as pd
-
-    rows = []
-    for i, rec in enumerate(recordings):
-        if not isinstance(rec, Recording):
-            raise InputError(f"recordings[{i}] must be a Recording; got {type(rec).__name__}")
-        if rec.subject is None or rec.start is None:
-            raise InputError(f"recordings[{i}] ({rec.source or 'no source'}) needs subject and "
-                             "start to be placed on a day",
-                             hint="rec.replace(subject=..., start=...)")
-        win_rows, _ = measure_recording(rec, settings=s)
-        row = dict(win_rows[0])
-        row.update(subject=rec.subject, start=rec.start, source=rec.source or f"recording {i}")
-        rows.append(row)
-    return pd.DataFrame(rows)
