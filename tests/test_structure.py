@@ -222,3 +222,25 @@ def test_clock_window_over_the_repeated_hour_starts_at_the_first():
     (w,) = rrkit.resolve_windows(ClockTime("02:30", "04:00", tz="Europe/Paris"), rec)
     # 00:00 +02:00 is 22:00 UTC; the first 02:30 (+02:00) is 00:30 UTC, 04:00 (+01:00) 03:00 UTC
     assert (w.start_s, w.end_s) == (pytest.approx(2.5 * 3600), pytest.approx(5 * 3600))
+
+
+def test_daily_command_passes_psd_detrend_and_bands_to_the_spectrum(tmp_path):
+    from rrkit.cli import main
+
+    data = tmp_path / "data"
+    _folder(data, n=1)
+    out = tmp_path / "out"
+    assert main(["daily", str(data), "-o", str(out), "--psd", "lomb", "--detrend", "linear",
+                 "--band", "hf=0.15-0.5", "--no-progress", "--jobs", "1"]) == 0
+    prov = json.loads((out / "provenance.json").read_text())
+    m = prov["settings"]["metrics"]
+    assert (m["psd"], m["detrend"], m["bands"]["hf"]) == ("lomb", "linear", [0.15, 0.5])
+    # the value in the table is the spectrum with those settings
+    rec = rrkit.read(next((data / "A01").iterdir()))
+    cr = rrkit.clean(rec)
+    w = rrkit.resolve_windows(rrkit.MORNING, rec)[0]
+    want = rrkit.metrics(cr.window(w.start_s, w.end_s), settings=MetricsSettings(
+        psd="lomb", detrend="linear", bands=Bands(hf=(0.15, 0.5))))
+    got = pd.read_csv(out / "daily.csv")["hf_ms2"].iloc[0]
+    assert got == pytest.approx(want["hf_ms2"], rel=1e-6)
+    assert main(["daily", str(data), "-o", str(out), "--psd", "welsh"]) == 2
