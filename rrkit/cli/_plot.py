@@ -55,11 +55,11 @@ def command(file: Path, kind: str, output: Path | None, window: str | None, meth
         if kind == "overview":
             squad_overview(daily, out)
         else:
-            from ..plots._trend import _check
-
-            _check(daily)  # one clear line instead of a KeyError on a table of another kind
-            subjects = sorted(daily["subject"].astype(str).unique())
-            if subject is None:
+            # a table of another kind is reported by athlete_trend (its columns are checked
+            # first): one clear line instead of a KeyError here
+            subjects = (sorted(daily["subject"].astype(str).unique())
+                        if "subject" in daily.columns else [])
+            if subject is None and "subject" in daily.columns:
                 if len(subjects) != 1:
                     raise InputError(f"{file}: the table holds {len(subjects)} subjects; "
                                      "choose one with --subject",
