@@ -17,10 +17,10 @@ from .agreement import (
     reference_table,
     search_definitions,
 )
-from .analysis import analyze
+from .analysis import QualityRules, analyze, window_rows
 from .batch import run_daily
 from .clean import CleanResult, CleanSettings, CleanSummary, clean
-from .daily import BaselineSettings, DailySettings, daily_table
+from .daily import BaselineSettings, DailySettings, DaySelection, daily_table
 from .errors import InputError, QualityWarning, RrkitWarning
 from .io import read, write_rr
 from .metrics import Bands, MetricsResult, MetricsSettings, Spectrum, metrics, spectrum
@@ -51,15 +51,18 @@ __all__ = [
     "MetricsSettings",
     "Spectrum",
     "Window",
+    "QualityRules",
     "analyze",
     "metrics",
     "parse_window",
     "resolve_windows",
     "spectrum",
+    "window_rows",
     "windows",
     # daily tables and batch runs
     "BaselineSettings",
     "DailySettings",
+    "DaySelection",
     "daily_table",
     "run_daily",
     # agreement

@@ -14,7 +14,8 @@ import numpy as np
 
 from .errors import InputError
 
-__all__ = ["check_option", "check_range", "as_float_array", "check_int"]
+__all__ = ["Interval", "Options", "as_float_array", "check_constraints", "check_int",
+           "check_option", "check_range"]
 
 
 def check_option(name: str, value: Any, allowed: Iterable[Any]) -> Any:
@@ -101,3 +102,57 @@ def as_float_array(
 
 def _unit(unit: str) -> str:
     return f" (in {unit})" if unit else ""
+
+
+# ---------------------------------------------------------------------------- declared constraints
+class Options:
+    """A parameter that takes one of a fixed set of values (declared once, used everywhere).
+
+    The same object validates the settings field (`check_option`), gives the command-line
+    ``choices`` (`values`) and the text of help and docs (`describe`).
+    """
+
+    __slots__ = ("values",)
+
+    def __init__(self, values: Iterable[Any]) -> None:
+        self.values = tuple(values)
+
+    def check(self, name: str, value: Any) -> Any:
+        return check_option(name, value, self.values)
+
+    def describe(self) -> str:
+        """``"one of 'welch', 'lomb', 'ar'"``."""
+        return "one of " + ", ".join(repr(v) for v in self.values)
+
+
+class Interval:
+    """A number in a range, with its unit (see `check_range` and `check_int`)."""
+
+    __slots__ = ("high", "high_inclusive", "integer", "low", "low_inclusive", "unit")
+
+    def __init__(self, low: float | None = None, high: float | None = None, *, unit: str = "",
+                 low_inclusive: bool = True, high_inclusive: bool = True,
+                 integer: bool = False) -> None:
+        self.low, self.high, self.unit = low, high, unit
+        self.low_inclusive, self.high_inclusive = low_inclusive, high_inclusive
+        self.integer = integer
+
+    def check(self, name: str, value: Any) -> Any:
+        if self.integer:
+            return check_int(name, value, low=self.low, high=self.high)
+        return check_range(name, value, low=self.low, high=self.high, unit=self.unit,
+                           low_inclusive=self.low_inclusive, high_inclusive=self.high_inclusive)
+
+    def describe(self) -> str:
+        lo = "-inf" if self.low is None else f"{self.low:g}"
+        hi = "inf" if self.high is None else f"{self.high:g}"
+        left = "[" if self.low_inclusive or self.integer else "("
+        right = "]" if self.high_inclusive or self.integer else ")"
+        kind = "a whole number" if self.integer else "a number"
+        return f"{kind} in {left}{lo}, {hi}{right}{_unit(self.unit)}"
+
+
+def check_constraints(obj: Any, constraints: dict[str, Options | Interval]) -> None:
+    """Check every field of ``obj`` named in ``constraints`` (in their order)."""
+    for name, constraint in constraints.items():
+        constraint.check(name, getattr(obj, name))

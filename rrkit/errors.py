@@ -9,7 +9,12 @@ from __future__ import annotations
 
 from os import PathLike
 
-__all__ = ["InputError", "RrkitWarning", "QualityWarning"]
+__all__ = ["ERROR_COLUMNS", "InputError", "QualityWarning", "RrkitWarning"]
+
+#: The columns of every ``errors.csv`` rrkit writes (one row per file that could not be used):
+#: the file, the kind of error (the exception's class name, or a name such as
+#: ``UnplacedFile``) and the one-line message.
+ERROR_COLUMNS = ("path", "error_type", "message")
 
 
 class InputError(ValueError):

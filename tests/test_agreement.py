@@ -9,7 +9,7 @@ from scipy import stats as st
 
 import rrkit
 from rrkit import InputError, agreement
-from rrkit._agreement_stats import bland_altman, ccc, icc_pingouin
+from rrkit.agreement._stats import bland_altman, ccc, icc_pingouin
 
 # Bland JM, Altman DG 1986, Lancet i:307-310, Table 1: peak expiratory flow (l/min), first
 # reading of each meter, 17 subjects (data as transcribed in ../shared/REFERENCES.md section 6).

@@ -17,6 +17,8 @@ PUBLIC = {
     "run_daily", "search_definitions", "spectrum", "windows", "write_rr",
     # simultaneous recordings of one heart
     "Alignment", "BeatPairs", "DeviceComparison", "align", "compare_devices", "pair_beats",
+    # the settings tree of a daily run and the one window table
+    "DaySelection", "QualityRules", "window_rows",
 }
 
 
@@ -38,7 +40,7 @@ def test_public_functions_take_options_by_keyword_only():
         "parse_window": {"text"}, "resolve_windows": {"spec", "recording"},
         "agreement": {"reported", "reference"}, "reference_table": {"nights"},
         "search_definitions": {"reported", "nights"}, "daily_table": {"recordings"},
-        "run_daily": {"root", "outdir"},
+        "run_daily": {"root", "outdir"}, "window_rows": {"recording"},
         "align": {"reference", "device"}, "pair_beats": {"reference", "device"},
         "compare_devices": {"reference", "device"},
     }

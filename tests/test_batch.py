@@ -131,7 +131,7 @@ def test_placement_time_zone_dst_and_unmatched(tmp_path):
     _write(data / "A01_2026-03-29_0230.txt", 8)
     # a file that matches no pattern and holds no subject or time stamps
     _write(data / "misc" / "recording.txt", 9)
-    s = DailySettings(tz="Europe/Berlin", wake_start="05:00", wake_end="11:00")
+    s = DailySettings.from_options(tz="Europe/Berlin", wake_start="05:00", wake_end="11:00")
     summary = run_daily(data, tmp_path / "out", settings=s, executor=InlineExecutor())
     t = summary.table.set_index("date")
     assert t.loc[dt.date(2026, 3, 28), "start_time"] == "2026-03-28T07:30:00+01:00"
@@ -158,13 +158,14 @@ def test_placement_manifest_utc_start_local_date(tmp_path):
     man.write_text("path,subject,start\n"
                    "a.txt,A01,2026-03-01T23:30:00+00:00\n"
                    "b.txt,A01,2026-03-03T06:00:00Z\n")
-    s = DailySettings(tz="Europe/Berlin", wake_start="00:00", wake_end="12:00")
+    s = DailySettings.from_options(tz="Europe/Berlin", wake_start="00:00", wake_end="12:00")
     t = run_daily(data, tmp_path / "out", manifest=man, settings=s,
                   executor=InlineExecutor()).table
     assert t["date"].tolist() == [dt.date(2026, 3, 2), dt.date(2026, 3, 3)]
     assert t["start_time"].tolist() == ["2026-03-02T00:30:00+01:00", "2026-03-03T07:00:00+01:00"]
+    utc = DailySettings.from_options(wake_start="00:00", wake_end="12:00")
     t_utc = run_daily(data, tmp_path / "out_utc", manifest=man, executor=InlineExecutor(),
-                      settings=DailySettings(wake_start="00:00", wake_end="12:00")).table
+                      settings=utc).table
     assert t_utc["date"].tolist()[0] == dt.date(2026, 3, 1)
 
 
@@ -379,7 +380,7 @@ def test_manifest_marks_the_morning_recording(tmp_path):
                    "a.txt,A01,2026-03-02,06:30,no,supine\n"
                    "b.txt,A01,2026-03-02,06:40,yes,seated\n"
                    "c.txt,A01,2026-03-03,06:30,,supine\n")
-    s = DailySettings(pick="marked")
+    s = DailySettings.from_options(pick="marked")
     t = run_daily(data, tmp_path / "out", manifest=man, settings=s,
                   executor=InlineExecutor()).table
     assert t["source"].iloc[0] == "b.txt"
@@ -483,7 +484,7 @@ def test_time_stamps_inside_the_file_fill_what_the_name_lacks(tmp_path):
     # no date in the name at all: the file's stamps place it
     _timestamped(data / "B02" / "undated.csv", dt.datetime(2026, 3, 3, 7, 15, 0), 3)
     pattern = "{subject}/[{date:%d.%m.%Y}]*"
-    s = DailySettings(tz="Europe/Berlin")
+    s = DailySettings.from_options(tz="Europe/Berlin")
     summary = run_daily(data, tmp_path / "out", pattern=pattern, settings=s,
                         executor=InlineExecutor())
     t = summary.table.set_index(["subject", "date"])

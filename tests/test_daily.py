@@ -196,17 +196,17 @@ def test_weekly_summary_compliance():
 # ----------------------------------------------------------------------------- settings
 def test_settings_validation():
     with pytest.raises(rrkit.InputError, match="unknown time zone 'Mars/Base'"):
-        DailySettings(tz="Mars/Base")
+        DailySettings.from_options(tz="Mars/Base")
     with pytest.raises(rrkit.InputError, match="wake_start must be before wake_end"):
-        DailySettings(wake_start="11:00", wake_end="05:00")
+        DailySettings.from_options(wake_start="11:00", wake_end="05:00")
     with pytest.raises(rrkit.InputError, match="rolling_min_days must be in"):
         BaselineSettings(rolling_min_days=8)
     with pytest.raises(rrkit.InputError, match="pick must be one of"):
-        DailySettings(pick="best")
+        DailySettings.from_options(pick="best")
     with pytest.raises(rrkit.InputError, match="did you mean 'welch'"):
-        DailySettings(psd="welsh")
+        DailySettings.from_options(psd="welsh")
     with pytest.raises(rrkit.InputError, match="strategy must be one of"):
-        DailySettings(strategy="guess")
+        DailySettings.from_options(strategy="guess")
 
 
 # ----------------------------------------------------------------------------- time zones
@@ -233,7 +233,7 @@ def _per_rec(rows):
 
 
 def test_select_days_rules():
-    berlin = DailySettings(tz="Europe/Berlin", wake_start="05:00", wake_end="10:00")
+    berlin = DailySettings.from_options(tz="Europe/Berlin", wake_start="05:00", wake_end="10:00")
     t = _per_rec([
         # 28 March: a late-night file (outside the wake window), then two mornings
         {"subject": "A", "start": "2026-03-28T01:30:00+01:00", "source": "night", "quality": "ok"},
@@ -268,7 +268,7 @@ def test_select_days_rules():
 
 
 def test_select_days_marked_rule_and_failed_files():
-    s = DailySettings(pick="marked")
+    s = DailySettings.from_options(pick="marked")
     t = _per_rec([
         {"subject": "A", "start": "2026-03-02T07:00:00", "source": "x", "quality": "ok",
          "marked": "no"},
@@ -342,7 +342,7 @@ def test_select_days_span_options():
 
 def test_measure_recording_passes_the_spectral_method():
     rec = simulate_rr(duration_s=380, seed=4)
-    rows, cr = measure_recording(rec, settings=DailySettings(psd="lomb"))
+    rows, cr = measure_recording(rec, settings=DailySettings.from_options(psd="lomb"))
     w = rrkit.resolve_windows(rrkit.MORNING, rec)[0]
     m = rrkit.metrics(cr.window(w.start_s, w.end_s), psd="lomb")
     assert rows[0]["hf_ms2"] == pytest.approx(m["hf_ms2"], rel=1e-12)

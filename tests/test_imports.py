@@ -21,15 +21,15 @@ PKG = Path(__file__).resolve().parents[1] / "rrkit"
 
 # Stage rank of each top-level part of the package (lower runs earlier in the pipeline).
 RANK = {
-    "_version": 0, "errors": 0, "_validation": 0, "_atomic": 0,
+    "_version": 0, "errors": 0, "_validation": 0, "_atomic": 0, "_plain": 0, "_time": 0,
     "recording": 1,
     "io": 2,
     "clean": 3,
     "windows": 4,
     "metrics": 5,
     "analysis": 6,
-    "daily": 7, "agreement": 7, "_agreement_stats": 7, "_agreement_text": 7, "exercise": 7,
-    "_agreement_search": 7, "_premature": 7,  # premature-beat cautions of a daily table
+    "daily": 7, "agreement": 7, "exercise": 7,
+    "_premature": 7,  # premature-beat cautions of a daily table
     "pairing": 7,      # simultaneous recordings: analysis and agreement on two recordings
     "io.store": 7,     # the HDF5 store keeps clean results and window metrics
     "batch": 8,
@@ -107,6 +107,90 @@ def test_stage_imports_only_earlier_stages(path, dotted):
             f"rrkit.{dotted} (stage {own}) imports rrkit.{name} (stage {other}) at line {lineno}: "
             "a stage may import only the stages before it"
         )
+
+
+def _module_names() -> set[str]:
+    return {d for _, d in MODULES}
+
+
+def _graph() -> dict[str, set[str]]:
+    """rrkit module -> the rrkit modules it imports, anywhere in its code (also inside
+    functions: an import deferred to call time is still a dependency). ``from pkg import sub``
+    counts as importing ``pkg`` and ``pkg.sub``; the package root ("") is a node too."""
+    known = _module_names() | {""}
+    graph: dict[str, set[str]] = {d: set() for d in known}
+    for path, dotted in MODULES:
+        tree = ast.parse(path.read_text(encoding="utf-8"))
+        base = dotted.split(".") if path.name == "__init__.py" else dotted.split(".")[:-1]
+        for node in ast.walk(tree):
+            targets: list[str] = []
+            if isinstance(node, ast.ImportFrom):
+                if node.level:
+                    anchor = base[: len(base) - (node.level - 1)] if node.level > 1 else base
+                    mod = ".".join([*anchor, *(node.module.split(".") if node.module else [])])
+                elif node.module and node.module.split(".")[0] == "rrkit":
+                    mod = node.module.removeprefix("rrkit").lstrip(".")
+                else:
+                    continue
+                subs = [f"{mod}.{a.name}".strip(".") for a in node.names]
+                if node.module is None:  # ``from . import x``: x itself (a module or a name)
+                    targets = [t if t in known else mod for t in subs]
+                else:
+                    targets = [mod, *subs]
+            elif isinstance(node, ast.Import):
+                targets = [a.name.removeprefix("rrkit").lstrip(".") for a in node.names
+                           if a.name.split(".")[0] == "rrkit"]
+            for t in targets:
+                if t in known and t != dotted:
+                    graph[dotted].add(t)
+    # the package root re-exports the public modules
+    init = (PKG / "__init__.py").read_text(encoding="utf-8")
+    for node in ast.walk(ast.parse(init)):
+        if isinstance(node, ast.ImportFrom) and node.level == 1 and node.module:
+            graph[""].add(node.module)
+        elif isinstance(node, ast.ImportFrom) and node.level == 1:
+            graph[""].update(a.name for a in node.names)
+    return graph
+
+
+def _cycle(graph: dict[str, set[str]]) -> list[str] | None:
+    """One import cycle (as a path a -> b -> ... -> a), or None."""
+    state: dict[str, int] = {}
+    stack: list[str] = []
+
+    def visit(n: str) -> list[str] | None:
+        state[n] = 1
+        stack.append(n)
+        for m in sorted(graph.get(n, ())):
+            if state.get(m) == 1:
+                return [*stack[stack.index(m):], m]
+            if m not in state:
+                found = visit(m)
+                if found:
+                    return found
+        stack.pop()
+        state[n] = 2
+        return None
+
+    for n in sorted(graph):
+        if n not in state:
+            found = visit(n)
+            if found:
+                return found
+    return None
+
+
+def test_no_import_cycles():
+    cycle = _cycle(_graph())
+    shown = " -> ".join(f"rrkit.{m}" if m else "rrkit" for m in cycle or [])
+    assert cycle is None, f"import cycle: {shown}"
+
+
+def test_the_cycle_check_finds_a_cycle():
+    # a check that cannot fail proves nothing: a planted three-module circle is reported
+    planted = {"a": {"b"}, "b": {"c"}, "c": {"a"}, "d": {"a"}}
+    assert _cycle(planted) in (["a", "b", "c", "a"], ["b", "c", "a", "b"], ["c", "a", "b", "c"])
+    assert _cycle({"a": {"b"}, "b": set()}) is None
 
 
 def test_each_stage_imports_on_its_own():

@@ -115,7 +115,8 @@ def season(tmp_path_factory):
                                                             nights=False))
     out = root / "daily"
     run = run_daily(data / "mornings", out, manifest=data / "mornings" / "manifest.csv",
-                    settings=DailySettings(tz="Europe/Berlin"), jobs=1, progress=False)
+                    settings=DailySettings.from_options(tz="Europe/Berlin"), jobs=1,
+                    progress=False)
     load = pd.read_csv(data / "training_load.csv")
     return out, run, load
 

@@ -14,6 +14,7 @@ Public entry point: `run_daily` (also the ``rrkit daily`` command). The parts:
 from .._atomic import atomic_path, atomic_write_bytes, atomic_write_text
 from ._discover import DEFAULT_EXTENSIONS, Candidate, Discovery, discover, read_manifest
 from ._executor import Executor, InlineExecutor, LocalExecutor, default_jobs
+from ._nights import read_nights
 from ._pattern import DEFAULT_PATTERN, FilenamePattern
 from ._run import OUTPUT_NAMES, RunSummary, run_daily
 from ._safe import neutralize_cell, neutralize_cells, safe_name
@@ -37,6 +38,7 @@ __all__ = [
     "neutralize_cell",
     "neutralize_cells",
     "read_manifest",
+    "read_nights",
     "run_daily",
     "safe_name",
 ]

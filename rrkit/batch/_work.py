@@ -14,7 +14,6 @@ instead of recomputing when both hashes are unchanged.
 from __future__ import annotations
 
 import contextlib
-import hashlib
 import json
 import logging
 import os
@@ -25,7 +24,8 @@ from typing import Any
 import numpy as np
 
 from .._atomic import atomic_path
-from ..daily import DailySettings, _plain, measure_recording
+from .._plain import digest, to_plain
+from ..daily import DailySettings, measure_recording
 
 __all__ = ["ARRAY_NAMES", "ResultCache", "process_and_cache", "process_file", "settings_hash"]
 
@@ -38,9 +38,9 @@ _MAGIC = b"RRKITC01"
 
 
 def settings_hash(settings: DailySettings) -> str:
-    """SHA-256 of the canonical JSON of the per-file settings (and the rrkit version)."""
-    text = json.dumps(settings.per_file_dict(), sort_keys=True, separators=(",", ":"))
-    return hashlib.sha256(text.encode()).hexdigest()
+    """The resume-cache key of the settings: `rrkit._plain.digest` of the part that decides a
+    single file's result (`DailySettings.file_part`, with the rrkit version)."""
+    return digest(settings.file_part())
 
 
 def _one_line(text: str) -> str:
@@ -93,8 +93,8 @@ def process_file(task: tuple[str, str, str], *, settings: DailySettings) -> dict
             ok=True,
             file_subject=rec.subject,
             file_start=None if rec.start is None else rec.start.isoformat(),
-            read_info=_plain(rec.info.to_dict()),
-            clean_summary=_plain(cr.summary.to_dict()),
+            read_info=to_plain(rec.info.to_dict()),
+            clean_summary=to_plain(cr.summary.to_dict()),
             rows=rows,
             warnings=notes,
             arrays={

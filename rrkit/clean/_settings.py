@@ -4,17 +4,20 @@ from __future__ import annotations
 
 import dataclasses
 from dataclasses import dataclass
-from typing import Any
+from typing import Any, ClassVar
 
-from .._validation import check_int, check_option, check_range
+from .._validation import Options, check_int, check_option, check_range
 from ..errors import InputError
 
-__all__ = ["METHODS", "STRATEGIES", "CleanSettings"]
+__all__ = ["CONSTRAINTS", "METHODS", "STRATEGIES", "CleanSettings"]
 
 #: Detection methods, see `rrkit.clean`.
 METHODS = ("drr", "median", "mad", "none")
 #: Correction strategies for ectopic, long, short and implausible intervals.
 STRATEGIES = ("interpolate", "drop")
+#: The allowed values of the option fields of `CleanSettings`, declared once (validation,
+#: command-line choices, help text).
+CONSTRAINTS = {"method": Options(METHODS), "strategy": Options(STRATEGIES)}
 
 
 @dataclass(frozen=True, slots=True)
@@ -116,9 +119,12 @@ class CleanSettings:
     caution_ectopic_per_hour: float = 30.0
     caution_min_ectopic: int = 3
 
+    #: The declared constraints of the option fields (`CONSTRAINTS`).
+    constraints: ClassVar[dict] = CONSTRAINTS
+
     def __post_init__(self) -> None:
-        check_option("method", self.method, METHODS)
-        check_option("strategy", self.strategy, STRATEGIES)
+        for name in ("method", "strategy"):
+            CONSTRAINTS[name].check(name, getattr(self, name))
         lo = check_range("min_rr_ms", self.min_rr_ms, low=0, low_inclusive=False, unit="ms")
         hi = check_range("max_rr_ms", self.max_rr_ms, low=0, low_inclusive=False, unit="ms")
         if hi <= lo:
@@ -153,5 +159,5 @@ class CleanSettings:
         return dataclasses.replace(self, **changes)
 
     def to_dict(self) -> dict[str, Any]:
-        """Plain-dict copy (for tables, JSON and HDF5 attributes)."""
+        """Plain-dict copy (for tables and HDF5 attributes; `rrkit._plain.to_plain` for JSON)."""
         return {f.name: getattr(self, f.name) for f in dataclasses.fields(self)}

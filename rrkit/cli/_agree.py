@@ -35,56 +35,6 @@ def _csv(df) -> str:
     return neutralize_cells(df).to_csv(index=False, lineterminator="\n", float_format="%.6g")
 
 
-def _read_reported(path: Path, metric: str):
-    import pandas as pd
-
-    from ..errors import InputError
-
-    try:
-        table = pd.read_csv(path, dtype={"subject": str, "date": str})
-    except (pd.errors.ParserError, pd.errors.EmptyDataError, UnicodeDecodeError) as exc:
-        raise InputError(f"cannot read the reported values: {exc}", path=path) from None
-    needed = ["subject", "date", metric]
-    missing = [c for c in needed if c not in table.columns]
-    if missing:
-        raise InputError(f"missing column(s) {missing}; expected {needed}", path=path, line=1,
-                         hint="name the value column with --metric")
-    values = pd.to_numeric(table[metric], errors="coerce")
-    bad = values.isna() & table[metric].notna()
-    if bad.any():
-        i = int(bad.to_numpy().nonzero()[0][0])
-        raise InputError(f"{metric} is {table[metric].iloc[i]!r}; expected a number", path=path,
-                         line=i + 2)
-    table[metric] = values
-    return table
-
-
-def _load_nights(folder: Path, manifest, pattern, tz: str, reported: Path):
-    """Read every recording of ``folder`` with subject and start; (nights, problems)."""
-    from .. import read
-    from ..batch import discover
-    from ..batch._discover import assign
-    from ..errors import InputError
-
-    if manifest is None and (folder / "manifest.csv").is_file():
-        manifest = folder / "manifest.csv"
-    exclude = [reported.resolve()]
-    disc = discover(folder, manifest=manifest, pattern=pattern, exclude=tuple(exclude))
-    problems = list(disc.problems)
-    nights = []
-    for cand in disc.candidates:
-        try:
-            rec = read(cand.path)
-            subject, start = assign(cand, rec.subject, rec.start, tz, pattern=disc.pattern)
-            if not hasattr(start, "hour"):
-                raise InputError("only the date of this night is known; a night needs its start "
-                                 "time", path=cand.relpath, hint="give start in the manifest")
-            nights.append(rec.replace(subject=subject, start=start, source=cand.relpath))
-        except (InputError, OSError) as exc:
-            problems.append((cand.relpath, type(exc).__name__, " ".join(str(exc).split())))
-    return nights, problems
-
-
 @click.command(name="agree")
 @click.option("--reported", "reported_path", required=True,
               type=click.Path(exists=True, dir_okay=False, path_type=Path),
@@ -134,22 +84,24 @@ def command(ctx, reported_path, folder, outdir, metric, definition, clean_name, 
     """
     import pandas as pd
 
-    from .. import agreement, reference_table, search_definitions
-    from .._agreement_search import REFERENCE_DEFINITIONS, _cleaning, _definition
-    from ..errors import InputError
+    from ..agreement import (
+        REFERENCE_DEFINITIONS,
+        agreement,
+        as_cleaning,
+        as_definition,
+        read_reported,
+        reference_table,
+        search_definitions,
+    )
+    from ..batch import read_nights
+    from ..errors import ERROR_COLUMNS, InputError
 
-    if not search:
-        for option, check, value in (("--definition", _definition, definition),
-                                     ("--clean", _cleaning, clean_name)):
-            try:
-                check(value)
-            except InputError as exc:  # name the option the user typed, not the argument
-                first = exc.message.split(" ", 1)
-                text = option + " " + first[1] if first[0] in ("definition", "clean") \
-                    else exc.message
-                raise InputError(text, hint=exc.hint) from None
-    reported = _read_reported(reported_path, metric)
-    nights, problems = _load_nights(folder, manifest, pattern, tz, reported_path)
+    if not search:  # a usage error before any night is read, named as the user typed it
+        as_definition(definition, name="--definition")
+        as_cleaning(clean_name, name="--clean")
+    reported = read_reported(reported_path, metric=metric)
+    nights, problems = read_nights(folder, manifest=manifest, pattern=pattern, tz=tz,
+                                   exclude=[reported_path])
     if not nights:
         raise InputError(f"no usable night recording in {folder}"
                          + (f"; first problem: {problems[0][0]}: {problems[0][2]}"
@@ -189,7 +141,7 @@ def command(ctx, reported_path, folder, outdir, metric, definition, clean_name, 
     res.plot(outdir / OUTPUTS["svg"])
     written += [OUTPUTS[k] for k in ("stats", "pairs", "reference", "summary", "png", "svg")]
     if problems:
-        err = pd.DataFrame(problems, columns=["path", "error", "message"])
+        err = pd.DataFrame(problems, columns=list(ERROR_COLUMNS))
         atomic_write_text(outdir / OUTPUTS["errors"], _csv(err), fsync=False)
         written.append(OUTPUTS["errors"])
     click.echo(text, nl=False)

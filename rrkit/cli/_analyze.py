@@ -25,6 +25,7 @@ from ..errors import InputError
 from ..windows import SYNTAX_HELP
 from . import error_line
 from ._options import reading_options
+from ._spectral_options import band_option, clean_option, psd_option
 
 CAUTION = ("rrkit is not a medical device and makes no diagnosis. Frequent premature beats are "
            "worth showing to a clinician; decisions rest with clinicians and qualified staff.")
@@ -39,40 +40,16 @@ TABLE_COLUMNS = (
 )
 
 
-def _parse_bands(items: tuple[str, ...]) -> dict[str, tuple[float, float]] | None:
-    if not items:
-        return None
-    out = {}
-    for item in items:
-        name, eq, span = item.partition("=")
-        lo, dash, hi = span.partition("-")
-        try:
-            if not eq or not dash:
-                raise ValueError
-            out[name.strip().lower()] = (float(lo), float(hi))
-        except ValueError:
-            raise InputError(f"--band must read NAME=LO-HI in Hz (NAME vlf, lf or hf); got "
-                             f"{item!r}", hint="for example --band hf=0.15-1.0") from None
-    return out
-
-
 @click.command(name="analyze", context_settings={"max_content_width": 100})
 @click.argument("files", nargs=-1, required=True,
                 type=click.Path(exists=True, dir_okay=False, path_type=Path))
 @click.option("--window", "-w", "window", default="morning", show_default=True,
               help="Analysis window(s), see the syntax above: " + SYNTAX_HELP + ".")
-@click.option("--clean", "clean_method", type=click.Choice(["drr", "median", "mad", "none"]),
-              default="drr", show_default=True,
-              help="Artifact correction before the metrics (drr: Lipponen & Tarvainen 2019; "
-                   "none: the intervals as read, quality 'unchecked').")
-@click.option("--psd", type=click.Choice(["welch", "lomb", "ar"]), default="welch",
-              show_default=True,
-              help="Spectrum: welch (4 Hz spline, smoothness-priors detrending, Hann, 150-s "
-                   "segments, 50% overlap), lomb (Lomb-Scargle) or ar (Burg, order 16).")
-@click.option("--band", "bands", multiple=True, metavar="NAME=LO-HI",
-              help="Change a frequency band in Hz (repeatable), e.g. --band hf=0.15-1.0 for "
-                   "exercise. Default Task Force 1996: vlf 0.0033-0.04, lf 0.04-0.15, "
-                   "hf 0.15-0.40.")
+@clean_option("Artifact correction before the metrics (drr: Lipponen & Tarvainen 2019; "
+              "none: the intervals as read, quality 'unchecked').")
+@psd_option("Spectrum: welch (4 Hz spline, smoothness-priors detrending, Hann, 150-s "
+            "segments, 50% overlap), lomb (Lomb-Scargle) or ar (Burg, order 16).")
+@band_option()
 @click.option("--format", "fmt", type=click.Choice(["table", "csv", "json"]), default=None,
               help="Output format (default: from the -o extension, else table).")
 @click.option("-o", "--output", type=click.Path(dir_okay=False, path_type=Path),
@@ -112,10 +89,11 @@ def command(files, window, clean_method, psd, bands, fmt, output, reading, start
 
     from ..analysis import analyze
     from ..io import read
+    from ..metrics import Bands
     from ..windows import parse_window
 
     spec = parse_window(window)
-    band_map = _parse_bands(bands)
+    band_map = Bands.from_text(bands, name="--band") if bands else None
     start = _parse_start(start_text)
     if fmt is None:
         suffix = output.suffix.lower() if output is not None else ""

@@ -18,7 +18,9 @@ from pathlib import Path
 
 import click
 
+from ..daily import DaySelection
 from ..errors import InputError
+from ._spectral_options import band_option, clean_option, detrend_option, psd_option
 
 ECTOPY_CAUTION = ("rrkit does not diagnose; frequent premature beats are a matter for a "
                   "clinician, please have these recordings reviewed by qualified staff.")
@@ -128,12 +130,14 @@ def _command_line() -> list[str]:
                    "local calendar dates there.")
 @click.option("--wake", default="04:00-12:00", show_default=True,
               help="Wake-time window in which a morning recording starts (local clock).")
-@click.option("--pick", type=click.Choice(["first", "marked"]), default="first",
+@click.option("--pick", type=click.Choice(DaySelection.constraints["pick"].values), default="first",
               show_default=True,
               help="Which recording of a day counts: the first usable one in the wake window, "
                    "or the one the manifest marks (column morning).")
-@click.option("--clean", "clean_method", type=click.Choice(["drr", "median", "mad", "none"]),
-              default="drr", show_default=True, help="Artifact detection method.")
+@clean_option("Artifact detection method.")
+@psd_option("Spectral estimator of the frequency-domain metrics.")
+@detrend_option()
+@band_option()
 @click.option("--baseline-days", type=int, default=60, show_default=True,
               help="Calendar days of the long baseline (ending --baseline-lag days before each "
                    "date).")
@@ -153,9 +157,9 @@ def _command_line() -> list[str]:
               help="Worker processes (default: all cores).")
 @click.option("--progress/--no-progress", default=None,
               help="Progress bar (default: on a terminal for runs of more than 20 files).")
-def command(folder, outdir, manifest, pattern, window, tz, wake, pick, clean_method,
-            baseline_days, baseline_lag, baseline_min, min_days, swc_sd, first_date, last_date,
-            jobs, progress) -> int:
+def command(folder, outdir, manifest, pattern, window, tz, wake, pick, clean_method, psd,
+            detrend, bands, baseline_days, baseline_lag, baseline_min, min_days, swc_sd,
+            first_date, last_date, jobs, progress) -> int:
     """One row per athlete per day from a folder of recordings, with baselines and flags.
 
     Finds the recordings under FOLDER (recursively), places each on a subject and a local
@@ -169,6 +173,7 @@ def command(folder, outdir, manifest, pattern, window, tz, wake, pick, clean_met
     """
     from ..batch import run_daily
     from ..daily import BaselineSettings, DailySettings
+    from ..metrics import Bands
 
     wake_start, wake_end = _wake(wake)
     if jobs is not None and jobs < 1:
@@ -178,8 +183,11 @@ def command(folder, outdir, manifest, pattern, window, tz, wake, pick, clean_met
                                      baseline_min_days=baseline_min,
                                      baseline_lag_days=baseline_lag, swc_sd=swc_sd,
                                      week_min_days=min(min_days, 7))
-        settings = DailySettings(window=window, tz=tz, wake_start=wake_start, wake_end=wake_end,
-                                 pick=pick, clean=clean_method, baselines=baselines)
+        settings = DailySettings.from_options(
+            window=window, tz=tz, wake_start=wake_start, wake_end=wake_end, pick=pick,
+            clean=clean_method, psd=psd, detrend=detrend,
+            bands=Bands.from_text(bands, name="--band") if bands else None,
+            baselines=baselines)
         summary = run_daily(folder, outdir, manifest=manifest, pattern=pattern,
                             settings=settings, jobs=jobs, progress=progress,
                             first_date=first_date, last_date=last_date,

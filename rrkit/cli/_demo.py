@@ -92,6 +92,8 @@ def command(outdir: Path, data: Path | None, jobs: int | None, quiet: bool) -> i
     """
     import pandas as pd
 
+    from ..daily import premature_beat_rates
+
     folder = find_data(data)
     meta = json.loads((folder / _MARKER).read_text(encoding="utf-8"))
     tz = meta.get("time_zone", "UTC")
@@ -107,7 +109,7 @@ def command(outdir: Path, data: Path | None, jobs: int | None, quiet: bool) -> i
     lab = _lab(folder, out)
 
     prog.step(3, "nights: which window definition do the wearable's values resemble?")
-    agree = _nights(folder, out, quiet=quiet)
+    agree = _nights(folder, out, tz=tz, quiet=quiet)
 
     prog.step(4, "exercise tests: DFA alpha1 thresholds of the ramp tests")
     ramps = _ramps(folder, out)
@@ -115,7 +117,7 @@ def command(outdir: Path, data: Path | None, jobs: int | None, quiet: bool) -> i
     prog.step(5, "figures")
     load = pd.read_csv(folder / "training_load.csv") if (folder / "training_load.csv").is_file() \
         else None
-    ectopy = _ectopy_by_subject(daily_run.outputs["store"])
+    ectopy = premature_beat_rates(daily_run.outputs["store"])
     figures = _figures(folder, out, daily_run, load=load, meta=meta, ectopy=ectopy, agree=agree,
                        note=prog.note)
 
@@ -138,7 +140,7 @@ def _mornings(folder: Path, out: Path, *, tz: str, jobs, quiet: bool):
     mornings = folder / "mornings"
     manifest = mornings / "manifest.csv"
     return run_daily(mornings, out / "daily", manifest=manifest if manifest.is_file() else None,
-                     settings=DailySettings(tz=tz), jobs=jobs,
+                     settings=DailySettings.from_options(tz=tz), jobs=jobs,
                      progress=None if not quiet else False,
                      command=["rrkit", "demo", str(out)])
 
@@ -200,26 +202,21 @@ def _ramp_summary(ramps: dict, out: Path) -> str:
     return "\n".join(lines) + "\n"
 
 
-def _nights(folder: Path, out: Path, *, quiet: bool = True):
+def _nights(folder: Path, out: Path, *, tz: str, quiet: bool = True):
     """Recompute the nights under every reference definition and rank them against the
     wearable's reported values; writes the ranking and the best combination's statistics."""
-    import pandas as pd
 
-    from .._agreement_search import search_definitions
-    from ..batch import read_manifest
-    from ..io import read
+    from ..agreement import read_reported, search_definitions
+    from ..batch import read_nights
 
     nights_dir = folder / "nights"
-    if not (nights_dir / "wearable_reports.csv").is_file():
+    reports = nights_dir / "wearable_reports.csv"
+    if not reports.is_file():
         return None
-    reported = pd.read_csv(nights_dir / "wearable_reports.csv")
-    entries, problems = read_manifest(nights_dir / "manifest.csv")
+    reported = read_reported(reports, metric="rmssd_ms")
+    nights, problems = read_nights(nights_dir, tz=tz, exclude=[reports])
     if problems:
-        raise InputError(f"{nights_dir / 'manifest.csv'}: {problems[0][2]}")
-    nights = []
-    for path, (_line, row) in sorted(entries.items()):
-        rec = read(path, subject=row["subject"])
-        nights.append(rec.replace(start=row["start"], subject=row["subject"]))
+        raise InputError(f"{problems[0][0]}: {problems[0][2]}", path=nights_dir)
     search = search_definitions(reported, nights, metric="rmssd_ms",
                                 progress=None if not quiet else False)
     from ._agree import OUTPUTS  # the same file names as `rrkit agree --search`
@@ -239,33 +236,6 @@ def _nights(folder: Path, out: Path, *, quiet: bool = True):
     atomic_write_text(agree_dir / OUTPUTS["summary"],
                       search.summary_text() + "\n" + best.summary_text(), fsync=False)
     return search
-
-
-def _ectopy_by_subject(store_path: Path) -> dict[str, dict]:
-    """Premature beats per hour, per subject, from the cleaning audits in the batch's store.
-
-    ``per_hour`` is the mean over the subject's mornings used in the daily table of the audit's
-    premature beats per hour (the mornings all last about 6 minutes). How often the caution
-    fired is counted from the daily table (`rrkit._premature.caution_counts`), not here.
-    """
-    from ..io.store import read_store_index
-
-    index = read_store_index(store_path)
-    if "used_in_daily" in index.columns:  # the same mornings as the daily table
-        index = index[index["used_in_daily"].astype(bool)]
-    per: dict[str, dict] = {}
-    for row in index.itertuples(index=False):
-        summ = json.loads(row.clean_summary) if isinstance(row.clean_summary, str) else {}
-        d = per.setdefault(str(row.subject), {"rates": [], "n_files": 0, "n_caution": 0})
-        d["rates"].append(float(summ.get("ectopic_per_hour", float("nan"))))
-        d["n_files"] += 1
-        if summ.get("caution"):
-            d["n_caution"] += 1
-            d["caution"] = summ["caution"]
-    for d in per.values():
-        rates = [r for r in d.pop("rates") if r == r]
-        d["per_hour"] = sum(rates) / len(rates) if rates else float("nan")
-    return per
 
 
 def _phases(meta):
@@ -330,36 +300,6 @@ def _report(out: Path, *, load, meta) -> Path:
 
 
 # --------------------------------------------------------------------------------- summary
-def _since(table, subject: str) -> str | None:
-    """First date of the current unbroken run of below-band days for a subject."""
-    d = table[table["subject"].astype(str) == subject].sort_values("date")
-    flags = d["below_swc"].fillna(False).astype(bool).to_numpy()
-    if not flags.size or not flags[-1]:
-        return None
-    i = flags.size - 1
-    while i > 0 and flags[i - 1]:
-        i -= 1
-    return str(d["date"].iloc[i])
-
-
-def below_swc_episodes(table) -> dict[str, list[tuple[str, str]]]:
-    """Per subject, the (first, last) dates of each run of consecutive below-band days."""
-    out: dict[str, list[tuple[str, str]]] = {}
-    for subject, d in table.sort_values("date").groupby("subject"):
-        flags = d["below_swc"].fillna(False).astype(bool).to_numpy()
-        dates = [str(x) for x in d["date"]]
-        runs, start = [], None
-        for i, f in enumerate(flags):
-            if f and start is None:
-                start = i
-            if (not f or i == flags.size - 1) and start is not None:
-                end = i if f else i - 1
-                runs.append((dates[start], dates[end]))
-                start = None
-        out[str(subject)] = runs
-    return out
-
-
 def _breathing_remark(notes: str) -> str:
     """The lab line's short remark on the breathing note of its window."""
     if "breathing at " in notes and "below the HF band" in notes:
@@ -371,6 +311,8 @@ def _breathing_remark(notes: str) -> str:
 
 def _summary(run, *, lab, agree, ectopy, figures, out, meta, folder, report=None,
              ramps=None) -> str:
+    from ..daily import flag_runs, run_since
+
     table = run.table
     lines = []
     lines.append("rrkit demo: the invented rowing squad (a simulation, not real people)")
@@ -391,15 +333,15 @@ def _summary(run, *, lab, agree, ectopy, figures, out, meta, folder, report=None
     names = sorted(this_week["subject"].astype(str).unique())
     if names:
         for s in names:
-            since = _since(table, s) or "earlier this week"
-            lines.append(f"  {s}: below the SWC band since {since}")
+            lines.append(f"  {s}: below the SWC band since "
+                         f"{run_since(table, s) or 'earlier this week'}")
     else:
         lines.append("  nobody")
     hr_up = table[(table["date"] >= week_start) & table["hr_above_swc"].fillna(False)]
     hr_names = sorted(hr_up["subject"].astype(str).unique())
     lines.append("Resting heart rate (7-day mean) above its SWC band this week: "
                  + (", ".join(hr_names) if hr_names else "nobody"))
-    episodes = below_swc_episodes(table)
+    episodes = flag_runs(table)
     long_runs = {s: [r for r in runs if r[0] != r[1]] for s, runs in episodes.items()}
     lines.append("Every run of 7-day ln-RMSSD below the SWC band this season (first - last day):")
     for s in sorted(long_runs):

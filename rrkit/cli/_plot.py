@@ -15,6 +15,7 @@ from pathlib import Path
 import click
 
 from ..errors import InputError
+from ._spectral_options import psd_option
 
 _KINDS = ("diagnostic", "trend", "overview")
 
@@ -31,9 +32,7 @@ _KINDS = ("diagnostic", "trend", "overview")
                    "start:60+300 (see docs/windows.md). Default: the whole recording.")
 @click.option("--clean", "method", default="drr", show_default=True, metavar="METHOD",
               help="diagnostic: artifact method (drr, median, mad, none).")
-@click.option("--psd", default="welch", show_default=True,
-              type=click.Choice(["welch", "lomb", "ar"]),
-              help="diagnostic: spectrum method.")
+@psd_option("diagnostic: spectrum method.")
 @click.option("--unit", default="auto", show_default=True, type=click.Choice(["auto", "ms", "s"]),
               help="diagnostic: unit of the values in FILE.")
 @click.option("--subject", default=None, help="trend: the athlete to draw.")
@@ -56,11 +55,11 @@ def command(file: Path, kind: str, output: Path | None, window: str | None, meth
         if kind == "overview":
             squad_overview(daily, out)
         else:
-            from ..plots._trend import _check
-
-            _check(daily)  # one clear line instead of a KeyError on a table of another kind
-            subjects = sorted(daily["subject"].astype(str).unique())
-            if subject is None:
+            # a table of another kind is reported by athlete_trend (its columns are checked
+            # first): one clear line instead of a KeyError here
+            subjects = (sorted(daily["subject"].astype(str).unique())
+                        if "subject" in daily.columns else [])
+            if subject is None and "subject" in daily.columns:
                 if len(subjects) != 1:
                     raise InputError(f"{file}: the table holds {len(subjects)} subjects; "
                                      "choose one with --subject",

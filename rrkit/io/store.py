@@ -21,7 +21,6 @@ table's extra columns) are used only when they are plain identifiers, else repla
 
 from __future__ import annotations
 
-import hashlib
 import json
 import os
 import re
@@ -32,6 +31,7 @@ from typing import Any
 import numpy as np
 
 from .._atomic import atomic_path
+from .._plain import canonical_json, digest
 from .._version import __version__
 from ..clean._result import LABELS
 from ..errors import InputError
@@ -97,7 +97,7 @@ def write_store(
     recordings: Iterable[Mapping[str, Any]],
     *,
     daily=None,
-    settings: Mapping[str, Any] | None = None,
+    settings: Any = None,
     fsync: bool = True,
 ) -> list[str]:
     """Write the store atomically.
@@ -115,8 +115,10 @@ def write_store(
         corrected_beat_times_s, corrected_rr_ms, corrected_gaps, origin``.
     daily : pandas.DataFrame, optional
         The daily table, stored under ``/daily``.
-    settings : mapping, optional
-        The settings every recording was processed with (root attribute ``settings``, JSON).
+    settings : DailySettings or mapping, optional
+        The settings every recording was processed with: root attribute ``settings``
+        (`rrkit._plain.canonical_json`) and ``settings_sha256`` (`rrkit._plain.digest`, the
+        same hash as the settings' own ``digest()``).
     fsync : bool
         Flush to disk before the rename.
 
@@ -129,7 +131,7 @@ def write_store(
 
     recs = list(recordings)
     n = len(recs)
-    settings_text = _json(dict(settings or {}))
+    settings_text = canonical_json({} if settings is None else settings)
     text = h5py.string_dtype("utf-8")
     rec_dtype = np.dtype([*((k, text) for k in _REC_TEXT), ("used_in_daily", np.int8),
                           ("t0_s", np.float64), ("corrected_t0_s", np.float64),
@@ -213,7 +215,7 @@ def write_store(
         h5.attrs["format_version"] = STORE_VERSION
         h5.attrs["rrkit_version"] = __version__
         h5.attrs["settings"] = settings_text
-        h5.attrs["settings_sha256"] = hashlib.sha256(settings_text.encode()).hexdigest()
+        h5.attrs["settings_sha256"] = digest({} if settings is None else settings)
         h5.attrs["n_recordings"] = n
         h5.create_dataset("recordings", data=table)
         h5.create_dataset("intervals", data=intervals)

@@ -8,17 +8,34 @@ from __future__ import annotations
 import dataclasses
 from collections.abc import Mapping
 from dataclasses import dataclass, field
-from typing import Any
+from typing import Any, ClassVar
 
-from .._validation import check_int, check_option, check_range
+from .._validation import Interval, Options, check_constraints, check_int, check_option, check_range
 from .._version import __version__
 from ..errors import InputError
 
-__all__ = ["DETRENDS", "DOMAINS", "PSD_METHODS", "TASK_FORCE_BANDS", "Bands", "MetricsSettings"]
+__all__ = ["CONSTRAINTS", "DETRENDS", "DOMAINS", "PSD_METHODS", "TASK_FORCE_BANDS", "Bands",
+           "MetricsSettings"]
 
 DOMAINS = ("time", "frequency", "nonlinear")
 PSD_METHODS = ("welch", "lomb", "ar")
 DETRENDS = ("smoothness_priors", "linear")
+
+#: The allowed values of the simple `MetricsSettings` fields, declared once: they validate the
+#: settings, give the command line its ``choices`` and the help its text.
+CONSTRAINTS = {
+    "psd": Options(PSD_METHODS),
+    "detrend": Options(DETRENDS),
+    "smoothness_lambda": Interval(0.0, low_inclusive=False),
+    "welch_segment_s": Interval(0.0, low_inclusive=False, unit="s"),
+    "welch_overlap": Interval(0.0, 1.0, high_inclusive=False),
+    "lomb_oversample": Interval(1, 64, integer=True),
+    "ar_order": Interval(1, 200, integer=True),
+    "ar_n_freqs": Interval(64, integer=True),
+    "min_hf_s": Interval(0.0, unit="s"),
+    "min_lf_s": Interval(0.0, unit="s"),
+    "min_vlf_s": Interval(0.0, unit="s"),
+}
 
 
 @dataclass(frozen=True, slots=True)
@@ -57,6 +74,29 @@ class Bands:
                 f"bands must not overlap and must increase VLF < LF < HF; got VLF {self.vlf}, "
                 f"LF {self.lf}, HF {self.hf} (in Hz)")
         check_option("bands.edge", self.edge, ("lo <= f < hi",))
+
+    @classmethod
+    def from_text(cls, items, *, name: str = "bands") -> Bands:
+        """Bands from texts ``"NAME=LO-HI"`` in Hz (``["hf=0.15-1.0"]``); others default.
+
+        Examples
+        --------
+        >>> Bands.from_text(["hf=0.15-1.0"]).hf
+        (0.15, 1.0)
+        """
+        items = [items] if isinstance(items, str) else list(items or ())
+        out = {}
+        for item in items:
+            band, eq, span = str(item).partition("=")
+            lo, dash, hi = span.partition("-")
+            try:
+                if not eq or not dash:
+                    raise ValueError
+                out[band.strip().lower()] = (float(lo), float(hi))
+            except ValueError:
+                raise InputError(f"{name} must read NAME=LO-HI in Hz (NAME vlf, lf or hf); got "
+                                 f"{item!r}", hint=f"for example {name} hf=0.15-1.0") from None
+        return cls.coerce(out)
 
     @classmethod
     def coerce(cls, value: Any) -> Bands:
@@ -167,6 +207,9 @@ class MetricsSettings:
     resp_peak_share: float = 0.5
     version: str = __version__
 
+    #: The declared constraints of the simple fields (`CONSTRAINTS`).
+    constraints: ClassVar[dict] = CONSTRAINTS
+
     def __post_init__(self) -> None:
         doms = (self.domains,) if isinstance(self.domains, str) else tuple(self.domains)
         if not doms:
@@ -174,21 +217,13 @@ class MetricsSettings:
         for d in doms:
             check_option("domains", d, DOMAINS)
         object.__setattr__(self, "domains", tuple(d for d in DOMAINS if d in doms))
-        check_option("psd", self.psd, PSD_METHODS)
+        CONSTRAINTS["psd"].check("psd", self.psd)
         object.__setattr__(self, "bands", Bands.coerce(self.bands))
         check_range("resample_hz", self.resample_hz, low=0.0, low_inclusive=False, unit="Hz")
         if self.resample_hz / 2 <= self.bands.hf[1]:
             raise InputError(f"resample_hz must exceed twice the HF upper edge "
                              f"({2 * self.bands.hf[1]:g} Hz); got {self.resample_hz!r}")
-        check_option("detrend", self.detrend, DETRENDS)
-        check_range("smoothness_lambda", self.smoothness_lambda, low=0.0, low_inclusive=False)
-        check_range("welch_segment_s", self.welch_segment_s, low=0.0, low_inclusive=False, unit="s")
-        check_range("welch_overlap", self.welch_overlap, low=0.0, high=1.0, high_inclusive=False)
-        check_int("lomb_oversample", self.lomb_oversample, low=1, high=64)
-        check_int("ar_order", self.ar_order, low=1, high=200)
-        check_int("ar_n_freqs", self.ar_n_freqs, low=64)
-        for name in ("min_hf_s", "min_lf_s", "min_vlf_s"):
-            check_range(name, getattr(self, name), low=0.0, unit="s")
+        check_constraints(self, {k: c for k, c in CONSTRAINTS.items() if k != "psd"})
         for name in ("dfa_alpha1_beats", "dfa_alpha2_beats"):
             value = getattr(self, name)
             try:
@@ -224,3 +259,4 @@ class MetricsSettings:
             else:
                 out[f.name] = v
         return out
+

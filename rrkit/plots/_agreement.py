@@ -100,9 +100,8 @@ def bland_altman(result, *, path=None, ax=None, title: str | None = None,
     from matplotlib.collections import LineCollection
     from matplotlib.transforms import blended_transform_factory
 
-    from ..agreement import AgreementResult
-
-    if not isinstance(result, AgreementResult):
+    # duck-typed, so that the figures never import the agreement stage that draws them
+    if not all(hasattr(result, k) for k in ("stats", "pairs", "ratio", "summary_text")):
         raise InputError(f"result must be an AgreementResult; got {type(result).__name__}",
                          hint="build it with rrkit.agreement(reported, reference)")
     s = result.stats

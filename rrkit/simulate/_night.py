@@ -240,7 +240,7 @@ def simulate_wearable_reports(
         ``subject``, ``date`` (the night's date: the local date of its last beat, see
         `rrkit.agreement.night_date`) and the metric column, one row per night.
     """
-    from .._agreement_search import reference_table
+    from ..agreement import reference_table
 
     bias = check_range("bias", bias)
     noise_sd = check_range("noise_sd", noise_sd, low=0.0)

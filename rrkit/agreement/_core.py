@@ -1,18 +1,4 @@
-"""Agreement between device-reported values and values recomputed from the raw intervals.
-
-`agreement` takes paired values (two aligned arrays, or two tables joined on subject and date)
-and returns an `AgreementResult`: Bland-Altman bias and limits of agreement with their
-confidence intervals, proportional bias, Lin's concordance correlation coefficient, the
-ICC(2,1), Pearson's r, mean absolute (percentage) error and the typical error of the estimate,
-as a dict, a table and a readable summary, with a Bland-Altman figure.
-
-Differences are always ``reported - reference``: a positive bias means the device reads high.
-
-The reference side can be built from raw nights (`reference_table`: a definition of which part
-of the night counts, and a cleaning setting), and `search_definitions` ranks a grid of
-definitions x cleanings by how closely the reported values follow each (implemented in
-:mod:`rrkit._agreement_search`, re-exported here).
-"""
+"""`agreement`: paired statistics of reported against reference values (`AgreementResult`)."""
 
 from __future__ import annotations
 
@@ -25,31 +11,11 @@ from typing import Any
 
 import numpy as np
 
-from . import _agreement_stats as _stats
-from ._agreement_search import (
-    CLEANINGS,
-    REFERENCE_DEFINITIONS,
-    DefinitionSearch,
-    ReferenceDefinition,
-    night_date,
-    reference_table,
-    search_definitions,
-)
-from ._validation import check_option, check_range
-from .errors import InputError
+from .._validation import check_option, check_range
+from ..errors import InputError
+from . import _stats
 
-__all__ = [
-    "CLEANINGS",
-    "REFERENCE_DEFINITIONS",
-    "AgreementResult",
-    "DefinitionSearch",
-    "ReferenceDefinition",
-    "agreement",
-    "night_date",
-    "reference_table",
-    "search_definitions",
-    "unit_of",
-]
+__all__ = ["AgreementResult", "agreement", "unit_of"]
 
 log = logging.getLogger("rrkit")
 
@@ -202,13 +168,13 @@ class AgreementResult:
 
     def summary_text(self) -> str:
         """A readable multi-line summary with the interpretation of each statistic."""
-        from ._agreement_text import summary_text
+        from ._text import summary_text
 
         return summary_text(self)
 
     def plot(self, path=None, **options):
         """Draw the Bland-Altman figure (see `rrkit.plots.bland_altman`); returns the Figure."""
-        from .plots._agreement import bland_altman
+        from ..plots._agreement import bland_altman
 
         return bland_altman(self, path=path, **options)
 
@@ -305,7 +271,7 @@ def agreement(
       ``s / sqrt(n)`` and of a limit ``sqrt(3 s^2 / n)``, intervals with ``t(n-1)``
       (Bland & Altman 1986);
     * repeated pairs: ``s^2 = s_b^2 + s_w^2`` from a one-way analysis of variance of ``d`` by
-      subject (Bland & Altman 2007); see `rrkit._agreement_stats.bland_altman`;
+      subject (Bland & Altman 2007); see `rrkit.agreement._stats.bland_altman`;
     * proportional bias: least-squares slope of ``d`` on ``m`` (statsmodels; cluster-robust by
       subject for repeated pairs), on the log scale in the ratio analysis;
     * CCC (Lin 1989) and its interval on Fisher's z with Lin's variance; ICC(2,1) and ICC(3,1)
