@@ -16,8 +16,14 @@ import numpy as np
 
 from .clean import CleanResult, CleanSettings
 from .errors import InputError
-from .metrics import FREQUENCY_KEYS, NONLINEAR_KEYS, TIME_KEYS, MetricsSettings, merge_settings
-from .metrics._batch import WindowView, metrics_many
+from .metrics import (
+    FREQUENCY_KEYS,
+    NONLINEAR_KEYS,
+    TIME_KEYS,
+    MetricsSettings,
+    merge_settings,
+    metrics_many,
+)
 from .recording import Recording
 from .windows import Whole, Window, parse_window, resolve_windows
 
@@ -186,7 +192,7 @@ def _audit(rec: Recording, cr: CleanResult | None, w: Window):
         return sub.recording, (summ.artifact_pct, summ.corrected_pct, summ.quality,
                                summ.quality_reason, notes)
     nan = float("nan")
-    return WindowView(rec, w.start_s, w.end_s), (nan, nan, "unchecked", "not cleaned", notes)
+    return rec.slice(w.start_s, w.end_s), (nan, nan, "unchecked", "not cleaned", notes)
 
 
 def _row(rec: Recording, w: Window, audit, m, keys: list[str]) -> dict[str, Any]:
