@@ -28,11 +28,45 @@ __all__ = ["cli", "error_line", "main"]
 _COMMANDS = ("info", "clean", "analyze", "daily", "agree", "plot", "demo")
 
 
+#: The first paragraph of each subcommand's help, so that ``rrkit --help`` lists the commands
+#: without importing them (tests/test_cli_startup.py checks these against the commands).
+_SUMMARIES = {
+    "info": "Show what each FILE holds and how rrkit read it: kind, unit and how each was "
+            "decided, beats, duration, start, heart-rate range, gaps and (for ECG) the "
+            "detection quality.",
+    "clean": "Label every interval of FILE (normal, ectopic, missed, extra, long, short, "
+             "implausible), correct the artifacts and print the audit: counts, shares, longest "
+             "run, premature beats per hour and the quality verdict.",
+    "analyze": "HRV metrics of each analysis window of FILE... (time, frequency, nonlinear "
+               "domains).",
+    "daily": "One row per athlete per day from a folder of recordings, with baselines and flags.",
+    "agree": "Agreement of a device's nightly values with values recomputed from the raw nights.",
+    "plot": "Draw a figure of FILE: a recording's diagnostic, or a daily table's trend / "
+            "overview.",
+    "demo": "Run the whole job on the bundled demo squad (invented athletes) and summarise it.",
+}
+
+
 class _Group(click.Group):
-    """Loads each subcommand's module only when it is listed or called (fast start-up)."""
+    """Loads each subcommand's module only when it is called (fast start-up); ``--help``
+    lists the commands from `_SUMMARIES` without importing them."""
 
     def list_commands(self, ctx):
-        return [name for name in _COMMANDS if self._load(name) is not None]
+        from importlib.util import find_spec
+
+        return [name for name in _COMMANDS if find_spec(f"rrkit.cli._{name}") is not None]
+
+    def format_commands(self, ctx, formatter):
+        names = [n for n in self.list_commands(ctx) if n in _SUMMARIES]
+        if not names:
+            return super().format_commands(ctx, formatter)
+        from click.utils import make_default_short_help
+
+        limit = formatter.width - 6 - max(len(n) for n in names)
+        rows = [(n, make_default_short_help(_SUMMARIES[n], limit)) for n in names]
+        with formatter.section("Commands"):
+            formatter.write_dl(rows)
+        return None
 
     def get_command(self, ctx, cmd_name):
         if cmd_name not in _COMMANDS:
