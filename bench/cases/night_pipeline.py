@@ -24,7 +24,7 @@ from . import _rrkit
 
 NAME = "night-pipeline"
 DESCRIPTION = "read + clean + 5-min windows of one night, end to end, vs neurokit2"
-TARGET_X = 100.0
+TARGET_X = 200.0
 WINDOW_S = 300.0
 
 
