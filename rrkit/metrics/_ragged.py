@@ -198,9 +198,24 @@ class Ragged:
         return np.searchsorted(self.pairs, self.window_offsets)
 
     def ragged_sort(self, offsets: np.ndarray) -> np.ndarray:
-        """``rr_ms`` sorted inside each segment ``offsets[i]:offsets[i + 1]``."""
-        seg = np.repeat(np.arange(offsets.size - 1), np.diff(offsets))
-        return self.rr_ms[np.lexsort((self.rr_ms, seg))]
+        """``rr_ms`` sorted inside each segment ``offsets[i]:offsets[i + 1]``.
+
+        Segments of similar sizes are sorted as the rows of one padded array (padding +inf,
+        sorted last); very unequal ones by one lexicographic sort."""
+        n = np.diff(offsets)
+        x = self.rr_ms
+        if n.size == 0 or x.size == 0:
+            return x.copy()
+        width = int(n.max())
+        if n.size * width > 2 * x.size + 1024:
+            seg = np.repeat(np.arange(n.size), n)
+            return x[np.lexsort((x, seg))]
+        seg = np.repeat(np.arange(n.size), n)
+        pos = np.arange(x.size) - np.repeat(offsets[:-1], n)
+        pad = np.full((n.size, width), np.inf)
+        pad[seg, pos] = x
+        pad.sort(axis=1)
+        return pad[seg, pos]
 
     def median(self, offsets: np.ndarray) -> np.ndarray:
         """Median (as `numpy.median`) per segment of ``rr_ms``; NaN for an empty one."""
@@ -220,6 +235,9 @@ class Ragged:
 
     @cached_property
     def run_median(self) -> np.ndarray:
+        per = np.diff(self.window_runs)
+        if per.size and per.max() <= 1:  # every run is a whole window
+            return self.window_median[self.run_window]
         return self.median(self.run_offsets)
 
     def take(self, windows: np.ndarray) -> Ragged:

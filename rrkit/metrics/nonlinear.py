@@ -151,8 +151,8 @@ def _dfa_block(rg: Ragged, sc: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
     per = rs[:, None] // sc[None, :]                      # boxes per (run, scale)
     cnt = per.ravel()
     total = int(cnt.sum())
-    nbox = np.zeros((w, nsc), np.int64)
-    np.add.at(nbox, (np.repeat(rg.run_window, nsc), np.tile(np.arange(nsc), rs.size)), cnt)
+    nbox = np.bincount(np.repeat(rg.run_window * nsc, nsc) + np.tile(np.arange(nsc), rs.size),
+                       weights=cnt, minlength=w * nsc).astype(np.int64).reshape(w, nsc)
     if total == 0:
         return np.full((w, nsc), _NAN), nbox
     pr = np.repeat(np.repeat(np.arange(rs.size), nsc), cnt)

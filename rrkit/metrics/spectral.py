@@ -52,7 +52,7 @@ import numpy as np
 
 from ._ragged import Ragged
 from ._settings import Bands, MetricsSettings
-from ._spline import spline_on_grid
+from ._spline import spline_many, spline_on_grid
 
 __all__ = [
     "FREQUENCY_KEYS",
@@ -114,9 +114,12 @@ def resample(times_s: np.ndarray, nn_ms: np.ndarray, fs_hz: float) -> np.ndarray
     The interpolant is ``scipy.interpolate.CubicSpline(..., bc_type="not-a-knot")``, computed
     without its per-call overhead (`rrkit.metrics._spline`).
     """
+    return spline_on_grid(times_s, nn_ms, _grid(times_s, fs_hz))
+
+
+def _grid(times_s: np.ndarray, fs_hz: float) -> np.ndarray:
     n = math.floor((times_s[-1] - times_s[0]) * fs_hz + 1e-9) + 1
-    grid = times_s[0] + np.arange(n) / fs_hz
-    return spline_on_grid(times_s, nn_ms, grid)
+    return times_s[0] + np.arange(n) / fs_hz
 
 
 @lru_cache(maxsize=64)
@@ -270,8 +273,10 @@ def _run_series(rg: Ragged, runs: np.ndarray, s: MetricsSettings) -> list[np.nda
     """Resampled, detrended series of the runs ``runs``."""
     t, y, off = rg.times_s, rg.rr_ms, rg.run_offsets
     fs = s.resample_hz
-    raw = [resample(t[off[k]:off[k + 1]], y[off[k]:off[k + 1]], fs) for k in runs.tolist()]
-    return _detrended(raw, s)
+    xs = [t[off[k]:off[k + 1]] for k in runs.tolist()]
+    ys = [y[off[k]:off[k + 1]] for k in runs.tolist()]
+    grids = [_grid(v, fs) for v in xs]  # the grids of `resample`, every series in one solve
+    return _detrended(spline_many(xs, ys, grids), s)
 
 
 def _welch_many(rg: Ragged, runs: np.ndarray, s: MetricsSettings):
