@@ -47,7 +47,9 @@ def test_public_names_resolve_lazily():
     for name in rrkit.__all__:
         assert getattr(rrkit, name) is not None, name
     import rrkit.metrics  # binding the subpackage keeps the public function
-    assert callable(rrkit.metrics) and callable(rrkit.clean) and callable(rrkit.agreement)
+    assert callable(rrkit.metrics)
+    assert callable(rrkit.clean)
+    assert callable(rrkit.agreement)
 
 
 def test_help_summaries_are_the_commands_own():

@@ -101,7 +101,8 @@ def test_time_kernel_against_numpy_per_window(windows):
             continue
         assert got["mean"][i] == pytest.approx(nn.mean(), rel=1e-12)
         assert got["median"][i] == np.median(nn)
-        assert got["min"][i] == nn.min() and got["max"][i] == nn.max()
+        assert got["min"][i] == nn.min()
+        assert got["max"][i] == nn.max()
         assert got["ss_dev"][i] == pytest.approx(((nn - nn.mean()) ** 2).sum(), rel=1e-9,
                                                  abs=1e-9)
         assert got["ss_diff"][i] == pytest.approx((d ** 2).sum(), rel=1e-12)
@@ -213,7 +214,8 @@ def test_poincare_kernel_against_numpy(windows):
         d = np.concatenate([np.diff(r) for r in runs]) if runs else np.zeros(0)
         s = np.concatenate([r[1:] + r[:-1] for r in runs]) if runs else np.zeros(0)
         if d.size < 2:
-            assert math.isnan(sd1[i]) and math.isnan(sd2[i])
+            assert math.isnan(sd1[i])
+            assert math.isnan(sd2[i])
         else:
             assert sd1[i] == pytest.approx(np.std(d / math.sqrt(2), ddof=1), rel=1e-9)
             assert sd2[i] == pytest.approx(np.std(s / math.sqrt(2), ddof=1), rel=1e-9)

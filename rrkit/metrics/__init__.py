@@ -21,9 +21,9 @@ import numpy as np
 from .._validation import check_range
 from ..errors import InputError
 from ..recording import Recording
-from ._settings import DOMAINS, PSD_METHODS, TASK_FORCE_BANDS, Bands, MetricsSettings
 from ._engine import compute_batch, compute_windows, metrics_many
 from ._ragged import Ragged
+from ._settings import DOMAINS, PSD_METHODS, TASK_FORCE_BANDS, Bands, MetricsSettings
 from .nonlinear import NONLINEAR_KEYS
 from .spectral import FREQUENCY_KEYS, band_power, frequency_many, psd_many
 from .time import TIME_KEYS

@@ -51,7 +51,7 @@ from functools import lru_cache
 import numpy as np
 
 from ._ragged import Ragged
-from ._settings import Bands, MetricsSettings
+from ._settings import MetricsSettings
 from ._spline import spline_many, spline_on_grid
 
 __all__ = [
@@ -373,10 +373,7 @@ def psd_many(rg: Ragged, s: MetricsSettings, *, method: str | None = None
         starts = np.concatenate(([0], np.cumsum(used)))
         for w in np.flatnonzero(used).tolist():
             a, b = starts[w], starts[w + 1]
-            if b - a == 1:
-                psd = p[a]
-            else:
-                psd = (p[a:b] * nseg[a:b, None]).sum(axis=0) / nseg[a:b].sum()
+            psd = p[a] if b - a == 1 else (p[a:b] * nseg[a:b, None]).sum(axis=0) / nseg[a:b].sum()
             psd.flags.writeable = False
             k = longest[w]
             out[w] = PsdEstimate(f, psd, float(df), "welch", float(length[k]), int(used[w]),
@@ -457,7 +454,6 @@ def frequency_values(est: PsdEstimate | None, row: dict | None, runs_longest_s: 
     `band_table` (``runs_longest_s``: its longest run, for the note when ``est`` is None)."""
     out = dict.fromkeys(FREQUENCY_KEYS, _NAN)
     notes: list[str] = []
-    b: Bands = s.bands
     if est is None:
         notes.append(
             f"frequency domain: NaN, the longest NN run lasts {runs_longest_s:.1f} s; HF needs "
