@@ -22,7 +22,6 @@ from pathlib import Path
 
 import numpy as np
 
-from .._data import write_rr_file
 from .._harness import CaseResult, Check, Target, Timing, ratio
 
 NAME = "fresh-process"
@@ -56,8 +55,7 @@ def run(cfg) -> CaseResult:
     res = CaseResult(NAME, DESCRIPTION)
     t_case = time.perf_counter()
     night = cfg.night()
-    path = write_rr_file(cfg.cache_dir / ("night-quick.txt" if cfg.quick else "night.txt"),
-                         night.recording)
+    path = cfg.night_file()
     out_rr = cfg.cache_dir / "fresh-rrkit.csv"
     out_nk = cfg.cache_dir / "fresh-neurokit2.csv"
     bounds_path = cfg.cache_dir / "fresh-bounds.json"
