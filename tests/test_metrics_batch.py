@@ -259,3 +259,24 @@ def test_welch_equals_scipy_signal_welch_on_the_same_segments(rng, n, nperseg, n
         assert row.shape == p_ref.shape
         assert np.allclose(row, p_ref, rtol=1e-10, atol=0)
     assert np.allclose(f_ref, np.arange(nfft // 2 + 1) * 4.0 / nfft)
+
+
+@pytest.mark.parametrize("overlap", [False, True])
+def test_spline_many_equals_scipy_cubicspline_per_series(rng, overlap):
+    # scipy.interpolate.CubicSpline (not-a-knot) is the reference, series by series; one
+    # block tridiagonal solve for all of them, series that follow each other or overlap in time
+    from scipy.interpolate import CubicSpline
+
+    from rrkit.metrics._spline import spline_many
+
+    xs, ys, grids = [], [], []
+    t0 = 0.0
+    for n in (4, 5, 30, 301):
+        x = t0 + np.cumsum(rng.uniform(0.4, 1.3, n))
+        t0 = x[0] + 3.0 if overlap else x[-1] + 0.5
+        xs.append(x)
+        ys.append(900 + 40 * rng.standard_normal(n))
+        grids.append(x[0] + np.arange(int((x[-1] - x[0]) * 4.0) + 1) / 4.0)
+    for x, y, g, got in zip(xs, ys, grids, spline_many(xs, ys, grids), strict=True):
+        want = CubicSpline(x, y, bc_type="not-a-knot")(g)
+        assert np.allclose(got, want, rtol=1e-9, atol=1e-9)

@@ -75,10 +75,18 @@ def spline_many(xs: list[np.ndarray], ys: list[np.ndarray], grids: list[np.ndarr
     if info != 0:  # singular system: never for increasing knots, but stay correct
         return [_scipy_spline(xv, yv, g) for xv, yv, g in zip(xs, ys, grids, strict=True)]
     # interval of every grid point inside its own series, then the Hermite form
-    idx = np.concatenate([
-        o + np.clip(np.searchsorted(xv, g, side="right") - 1, 0, xv.size - 2)
-        for o, xv, g in zip(first.tolist(), xs, grids, strict=True)])
     grid = np.concatenate(grids)
+    if n < 2 or bool((dx > 0).all()):
+        # the series follow each other in time (windows that do not overlap): one search over
+        # all knots finds the same interval as a search inside the series, since every grid
+        # point lies between its own series' first knot and the next series' first knot
+        gsize = np.array([g.size for g in grids], dtype=np.int64)
+        idx = np.clip(np.searchsorted(x, grid, side="right") - 1, np.repeat(first, gsize),
+                      np.repeat(last - 1, gsize))
+    else:
+        idx = np.concatenate([
+            o + np.clip(np.searchsorted(xv, g, side="right") - 1, 0, xv.size - 2)
+            for o, xv, g in zip(first.tolist(), xs, grids, strict=True)])
     h = dx[idx]
     t = grid - x[idx]
     m = slope[idx]

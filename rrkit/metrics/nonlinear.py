@@ -165,7 +165,12 @@ def _dfa_block(rg: Ragged, sc: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
     size = size_i.astype(float)
     centre = start + (size - 1.0) / 2.0
     stt = size * (size * size - 1.0) / 12.0
-    sy, sky, syy = flat[:, base + start + size_i] - flat[:, base + start]
+    a_at = base + start
+    e_at = a_at + size_i
+    c_y, c_ky, c_yy = flat  # three contiguous rows: 1-D gathers are the fast ones
+    sy = c_y[e_at] - c_y[a_at]
+    sky = c_ky[e_at] - c_ky[a_at]
+    syy = c_yy[e_at] - c_yy[a_at]
     sty = sky - centre * sy                          # sum of (k - centre) * y
     ss = syy - sy * sy / size - sty * sty / stt      # residual sum of squares of the line fit
     with np.errstate(invalid="ignore", divide="ignore"):
