@@ -25,7 +25,7 @@ from ._engine import compute_batch, compute_windows, metrics_many
 from ._ragged import Ragged
 from ._settings import DOMAINS, PSD_METHODS, TASK_FORCE_BANDS, Bands, MetricsSettings
 from .nonlinear import NONLINEAR_KEYS
-from .spectral import FREQUENCY_KEYS, band_power, frequency_many, psd_many
+from .spectral import FREQUENCY_KEYS, band_power, frequency_values_many, psd_many
 from .time import TIME_KEYS
 
 __all__ = [
@@ -252,8 +252,9 @@ def spectrum(
     rec, _ = _as_recording(data)
     s = merge_settings(settings, None, psd, bands)
     rg = Ragged.from_recordings([rec])
-    est = psd_many(rg, s)[0]
-    notes = frequency_many(rg, s, [None])[0][1]
+    ests = psd_many(rg, s)
+    est = ests[0]
+    notes = frequency_values_many(rg, ests, s, [None])[0][1]
     if est is None:
         raise InputError(
             f"no NN run of {rec!r} lasts {s.min_hf_s:g} s, the shortest a spectrum is "

@@ -62,6 +62,7 @@ __all__ = [
     "band_table",
     "frequency_domain",
     "frequency_many",
+    "frequency_values_many",
     "psd_many",
     "resample",
     "smoothness_priors_detrend",
@@ -99,12 +100,12 @@ def edge_allowance_s(rr_ms: np.ndarray) -> float:
     (60 s for HF, 120 s for LF) when its span plus twice its median interval reaches it, so that
     a window of exactly the Task Force length (about 1 and 2 minutes) gets the band.
     """
-    return 2.0 * float(np.median(rr_ms)) / 1000.0 if rr_ms.size else 0.0
+    return float(_allowance_s(np.median(rr_ms))) if rr_ms.size else 0.0
 
 
-def run_length_s(times_s: np.ndarray, rr_ms: np.ndarray) -> float:
-    """Span of a run's beats in s: from the beat that starts its first interval to its last."""
-    return float(times_s[-1] - times_s[0]) + float(rr_ms[0]) / 1000.0
+def _allowance_s(median_rr_ms):
+    """`edge_allowance_s` from the median interval(s) in ms."""
+    return 2.0 * median_rr_ms / 1000.0
 
 
 def resample(times_s: np.ndarray, nn_ms: np.ndarray, fs_hz: float) -> np.ndarray:
@@ -332,11 +333,12 @@ def _ar(runs, s: MetricsSettings, series: list[np.ndarray]):
 
 
 def run_spans(rg: Ragged) -> tuple[np.ndarray, np.ndarray]:
-    """`run_length_s` and `edge_allowance_s` of every run of the batch."""
+    """Span (s) and `edge_allowance_s` of every run of the batch. The span of a run's beats
+    runs from the beat that starts its first interval to its last beat."""
     first = rg.run_offsets[:-1]
     last = rg.run_offsets[1:] - 1
     length = rg.times_s[last] - rg.times_s[first] + rg.rr_ms[first] / 1000.0
-    return length, 2.0 * rg.run_median / 1000.0
+    return length, _allowance_s(rg.run_median)
 
 
 def psd_many(rg: Ragged, s: MetricsSettings, *, method: str | None = None
@@ -527,7 +529,12 @@ def _breathing(est: PsdEstimate, row: dict, s: MetricsSettings, out: dict, notes
 
 def frequency_many(rg: Ragged, s: MetricsSettings, breathing_hz) -> list[tuple[dict, list[str]]]:
     """Frequency-domain values and notes of every window (``breathing_hz``: one per window)."""
-    ests = psd_many(rg, s)
+    return frequency_values_many(rg, psd_many(rg, s), s, breathing_hz)
+
+
+def frequency_values_many(rg: Ragged, ests: list[PsdEstimate | None], s: MetricsSettings,
+                          breathing_hz) -> list[tuple[dict, list[str]]]:
+    """Values and notes of every window of ``rg`` from its spectra ``ests`` (`psd_many`)."""
     rows: list[dict | None] = [None] * len(ests)
     have = [i for i, e in enumerate(ests) if e is not None]
     if have and s.psd == "welch":  # one grid: every window's bands at once
@@ -585,6 +592,6 @@ def frequency_domain(runs: list[tuple[np.ndarray, np.ndarray]], s: MetricsSettin
     otherwise the HF peak frequency (respiratory sinus arrhythmia).
     """
     rg = Ragged.from_segments([rr for _, rr in runs], times=[t for t, _ in runs])
-    est = psd_many(rg, s)[0]
-    values, notes = frequency_many(rg, s, [breathing_hz])[0]
-    return values, notes, est
+    ests = psd_many(rg, s)
+    values, notes = frequency_values_many(rg, ests, s, [breathing_hz])[0]
+    return values, notes, ests[0]
