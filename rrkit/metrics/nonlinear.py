@@ -318,10 +318,15 @@ def _sampen_block(rg: Ragged, m: int, r: np.ndarray) -> tuple[np.ndarray, np.nda
         pi = np.repeat(np.arange(ks.size), counts)
         pj = np.arange(total) + np.repeat(np.arange(1, ks.size + 1) - (np.cumsum(counts) - counts),
                                           counts)
-        rp = rw[pi]
-        ok = np.abs(cols[0][pj] - cols[0][pi]) <= rp
-        for k in range(1, m):
-            ok &= np.abs(cols[k][pj] - cols[k][pi]) <= rp
+        rp = np.repeat(rw, counts)
+        # the later points first (they reject most candidates), then the first point exactly
+        # (the candidates were found on shifted keys with a little slack)
+        order_k = list(range(1, m)) + [0]
+        ok = np.abs(cols[order_k[0]][pj] - cols[order_k[0]][pi]) <= rp
+        for k in order_k[1:]:
+            keep = np.flatnonzero(ok)
+            pi, pj, rp = pi[keep], pj[keep], rp[keep]
+            ok = np.abs(cols[k][pj] - cols[k][pi]) <= rp
         keep = np.flatnonzero(ok)
         pi, pj, rp = pi[keep], pj[keep], rp[keep]
         b_cnt = np.bincount(ws[pi], minlength=w)
