@@ -121,8 +121,8 @@ def render(doc: dict[str, Any]) -> str:
             notes.append(
                 f"At 10^6 beats the pipeline takes {big['median_s']:.1f} s "
                 f"({big['us_per_beat']:.1f} µs per beat); peak resident memory "
-                f"{big['peak_rss_mb']:.0f} MB including the interpreter, the imports and numba's "
-                f"compiler ({big['tracemalloc_peak_mb']:.0f} MB of it are the pipeline's own "
+                f"{big['peak_rss_mb']:.0f} MB including the interpreter and the imports "
+                f"({big['tracemalloc_peak_mb']:.0f} MB of it are the pipeline's own "
                 "temporaries by tracemalloc).")
     for n in notes:
         lines.append(f"- {n}")

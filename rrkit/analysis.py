@@ -27,8 +27,8 @@ from .metrics import (
     TIME_KEYS,
     MetricsSettings,
     merge_settings,
+    metrics_many,
 )
-from .metrics._batch import WindowView, metrics_many
 from .recording import Recording
 from .windows import Whole, Window, parse_window, resolve_windows
 
@@ -305,7 +305,7 @@ def _audit(rec: Recording, cr: CleanResult | None, w: Window):
                                summ.quality_reason, notes, int(sub.input.n_beats),
                                summ.caution or "")
     nan = float("nan")
-    view = WindowView(rec, w.start_s, w.end_s)
+    view = rec.slice(w.start_s, w.end_s)
     return view, (nan, nan, "unchecked", "not cleaned", notes, view.n_beats, "")
 
 

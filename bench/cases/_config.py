@@ -48,6 +48,15 @@ class Config:
             self._memo["night"] = make_night(duration_s=self.night_s, artifact_rate=0.02, seed=8)
         return self._memo["night"]
 
+    def night_file(self):
+        """The shared night written as an RR text file in the cache folder (made once)."""
+        if "night_file" not in self._memo:
+            from .._data import write_rr_file
+
+            name = "night-quick.txt" if self.quick else "night.txt"
+            self._memo["night_file"] = write_rr_file(self.cache_dir / name, self.night().recording)
+        return self._memo["night_file"]
+
     def cleaned_night(self):
         """``rrkit.clean(night, method="drr")`` of the shared night, made once per run."""
         if "cleaned" not in self._memo:

@@ -17,14 +17,13 @@ import time
 
 import numpy as np
 
-from .._data import write_rr_file
 from .._harness import CaseResult, Check, Target, speed_ratios, time_pair
 from .._nk import FS_HZ, nk_fixpeaks, nk_read_rr, nk_windows
 from . import _rrkit
 
 NAME = "night-pipeline"
 DESCRIPTION = "read + clean + 5-min windows of one night, end to end, vs neurokit2"
-TARGET_X = 100.0
+TARGET_X = 200.0
 WINDOW_S = 300.0
 
 
@@ -42,8 +41,7 @@ def run(cfg) -> CaseResult:
     res = CaseResult(NAME, DESCRIPTION)
     t_case = time.perf_counter()
     night = cfg.night()
-    path = write_rr_file(cfg.cache_dir / ("night-quick.txt" if cfg.quick else "night.txt"),
-                         night.recording)
+    path = cfg.night_file()
     spec = _rrkit.sliding(WINDOW_S, WINDOW_S)
 
     def rr_side():

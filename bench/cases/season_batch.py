@@ -40,7 +40,7 @@ from .._nk import FS_HZ, nk_fixpeaks, nk_read_rr, nk_window_metrics
 
 NAME = "season-batch"
 DESCRIPTION = "12 subjects x 180 days of 6-min mornings: rrkit daily --jobs 1 / 2 vs neurokit2"
-JOBS_TARGET_X = 1.6
+JOBS_TARGET_X = 1.7
 NK_TARGET_X = 20.0
 SKIP_S, WINDOW_S = 60.0, 300.0
 

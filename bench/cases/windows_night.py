@@ -19,7 +19,7 @@ from ._compare import compare_windows
 
 NAME = "windows-night"
 DESCRIPTION = "96 x 5-min windows, all domains (Welch): rrkit.analyze vs neurokit2 hrv_*"
-TARGET_X = 100.0
+TARGET_X = 200.0
 WINDOW_S = 300.0
 
 

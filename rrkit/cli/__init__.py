@@ -31,11 +31,53 @@ _COMMANDS = ("info", "clean", "analyze", "daily", "agree", "pair", "ramp", "plot
              "demo")
 
 
+#: The first paragraph of each subcommand's help, so that ``rrkit --help`` lists the commands
+#: without importing them (tests/test_cli_startup.py checks these against the commands).
+_SUMMARIES = {
+    "info": "Show what each FILE holds and how rrkit read it: kind, unit and how each was "
+            "decided, beats, duration, start, heart-rate range, gaps and (for ECG) the "
+            "detection quality.",
+    "clean": "Label every interval of FILE (normal, ectopic, missed, extra, long, short, "
+             "implausible), correct the artifacts and print the audit: counts, shares, longest "
+             "run, premature beats per hour and the quality verdict.",
+    "analyze": "HRV metrics of each analysis window of FILE... (time, frequency, nonlinear "
+               "domains).",
+    "daily": "One row per athlete per day from a folder of recordings, with baselines and flags.",
+    "agree": "Agreement of a device's nightly values with values recomputed from the raw nights.",
+    "pair": "Align two simultaneous recordings of one heart (REFERENCE, e.g. an ECG, and DEVICE, "
+            "e.g. a wrist PPG), pair their beats and measure the device against the reference: "
+            "matched, missed and extra beats, paired-interval agreement, and the same windows' "
+            "metrics compared.",
+    "ramp": "Follow DFA alpha1 through the incremental exercise test in FILE (RR intervals, peak "
+            "times or ECG) and report the heart rate, and the power or speed with --stages, at "
+            "which alpha1 crosses each level, with a bootstrap 95% CI and a verdict (ok, "
+            "uncertain, not found).",
+    "report": "Write one self-contained HTML page from a daily run: the week at a glance, "
+              "figures, failed files, settings and cautions.",
+    "plot": "Draw a figure of FILE: a recording's diagnostic, or a daily table's trend / "
+            "overview.",
+    "demo": "Run the whole job on the bundled demo squad (invented athletes) and summarise it.",
+}
+
+
 class _Group(click.Group):
-    """Loads each subcommand's module only when it is listed or called (fast start-up)."""
+    """Loads each subcommand's module only when it is called (fast start-up); ``--help``
+    lists the commands from `_SUMMARIES` without importing them."""
 
     def list_commands(self, ctx):
-        return [name for name in _COMMANDS if self._load(name) is not None]
+        from importlib.util import find_spec
+
+        return [name for name in _COMMANDS if find_spec(f"rrkit.cli._{name}") is not None]
+
+    def format_commands(self, ctx, formatter):
+        names = [n for n in self.list_commands(ctx) if n in _SUMMARIES]
+        if not names:
+            return super().format_commands(ctx, formatter)
+        limit = formatter.width - 6 - max(len(n) for n in names)
+        rows = [(n, _short(_SUMMARIES[n], limit)) for n in names]
+        with formatter.section("Commands"):
+            formatter.write_dl(rows)
+        return None
 
     def get_command(self, ctx, cmd_name):
         if cmd_name not in _COMMANDS:
@@ -51,6 +93,15 @@ class _Group(click.Group):
                 return None
             raise
         return module.command
+
+
+def _short(text: str, limit: int) -> str:
+    """``text`` cut at a word to ``limit`` characters, with '...' where it was cut."""
+    first = text.rstrip(".")
+    if len(first) <= limit:
+        return first
+    cut = first[: max(limit - 3, 1)].rsplit(" ", 1)[0]
+    return cut.rstrip(",;:") + "..."
 
 
 _CONTEXT = {"help_option_names": ["-h", "--help"], "max_content_width": 100}

@@ -3,7 +3,10 @@
 `metrics` turns a `Recording` (or a `CleanResult`) into a `MetricsResult`: a ``dict`` of floats
 under fixed key names, with ``.notes`` saying why any value is NaN and ``.settings`` holding
 everything that decided the values. `spectrum` returns the power spectrum for plots. The numeric
-kernels (`time`, `spectral`, `nonlinear`) are pure functions of numpy arrays.
+kernels (`time`, `spectral`, `nonlinear`) are pure functions of numpy arrays, each working on
+many windows at once (`rrkit.metrics._ragged`); `compute_windows` and `metrics_many` are the
+entry points for many windows (`rrkit.analyze` uses `compute_windows`), and `metrics` is a batch
+of one window.
 """
 
 from __future__ import annotations
@@ -19,10 +22,13 @@ from .._validation import check_range
 from ..errors import InputError
 from ..recording import Recording
 from ._edr import ecg_breathing_hz
+from ._engine import compute_batch, compute_windows, metrics_many
+from ._ragged import Ragged
+from ._result import MetricsResult
 from ._settings import DOMAINS, PSD_METHODS, TASK_FORCE_BANDS, Bands, MetricsSettings
-from .nonlinear import NONLINEAR_KEYS, nonlinear_domain
-from .spectral import FREQUENCY_KEYS, band_power, frequency_domain
-from .time import TIME_KEYS, time_domain
+from .nonlinear import NONLINEAR_KEYS
+from .spectral import FREQUENCY_KEYS, band_power, frequency_values_many, psd_many
+from .time import TIME_KEYS
 
 __all__ = [
     "ALL_KEYS",
@@ -37,7 +43,9 @@ __all__ = [
     "MetricsSettings",
     "Spectrum",
     "ecg_breathing_hz",
+    "compute_windows",
     "metrics",
+    "metrics_many",
     "spectrum",
 ]
 
@@ -45,39 +53,6 @@ __all__ = [
 ALL_KEYS = TIME_KEYS + FREQUENCY_KEYS + NONLINEAR_KEYS
 
 _DOMAIN_KEYS = {"time": TIME_KEYS, "frequency": FREQUENCY_KEYS, "nonlinear": NONLINEAR_KEYS}
-
-
-class MetricsResult(dict):
-    """Metric values (``dict[str, float]``) with the notes and settings that produced them.
-
-    Attributes
-    ----------
-    notes : list of str
-        One line per reason a value is NaN or needs care (too short for a band, too few beats,
-        breathing below the HF band).
-    settings : MetricsSettings
-        Everything that decided the values (PSD method, resampling, detrending, Welch segments,
-        band edges, DFA box sizes, SampEn m and r, rrkit version).
-    clean_settings : object or None
-        The cleaning settings when the input was a `CleanResult`.
-    """
-
-    def __init__(self, values: dict[str, float], *, notes: list[str], settings: MetricsSettings,
-                 clean_settings: Any = None) -> None:
-        super().__init__(values)
-        self.notes = list(notes)
-        self.settings = settings
-        self.clean_settings = clean_settings
-
-    def __repr__(self) -> str:
-        return f"MetricsResult({dict.__repr__(self)}, notes={self.notes!r})"
-
-    def __reduce__(self):
-        return (_rebuild_result, (dict(self), self.notes, self.settings, self.clean_settings))
-
-
-def _rebuild_result(values, notes, settings, clean_settings):
-    return MetricsResult(values, notes=notes, settings=settings, clean_settings=clean_settings)
 
 
 @dataclass(frozen=True, slots=True)
@@ -120,17 +95,6 @@ def _as_recording(data: Any) -> tuple[Recording, Any]:
     if isinstance(rec, Recording):  # a CleanResult: use the corrected recording
         return rec, getattr(data, "settings", None)
     raise InputError(f"data must be a Recording or a CleanResult; got {type(data).__name__}")
-
-
-def _run_bounds(gaps: np.ndarray) -> list[tuple[int, int]]:
-    """(first, stop) interval indices of the runs of non-gap intervals (as `nn_segments`)."""
-    if gaps.size == 0:
-        return []
-    if not gaps.any():
-        return [(0, gaps.size)]
-    ok = ~gaps
-    edges = np.flatnonzero(np.diff(np.concatenate(([False], ok, [False])).astype(np.int8)))
-    return [(int(a), int(b)) for a, b in zip(edges[::2], edges[1::2], strict=True)]
 
 
 @lru_cache(maxsize=1)
@@ -212,33 +176,10 @@ def metrics(
 
 
 def compute(rec: Recording, s: MetricsSettings, *, breathing_hz: float | None = None,
-            clean_settings: Any = None, pre: dict[str, Any] | None = None) -> MetricsResult:
-    """`metrics` after argument checks: ``rec`` and ``s`` as given, ``pre`` holding values the
-    batched path (`rrkit.metrics._batch`) already computed for this recording."""
-    pre = pre or {}
-    bounds = _run_bounds(rec.gaps)
-    rr = rec.rr_ms
-    segments = [rr[a:b] for a, b in bounds]
-    values: dict[str, float] = {}
-    notes: list[str] = []
-    if "time" in s.domains:
-        v, n = time_domain(segments, n_beats=rec.n_beats, duration_s=rec.duration_s,
-                           tinn_ms=pre.get("tinn_ms"), sums=pre.get("sums"))
-        values.update(v)
-        notes += n
-    if "frequency" in s.domains:
-        t_end = rec.interval_times_s
-        runs = [(t_end[a:b], rr[a:b]) for a, b in bounds]
-        v, n, _ = frequency_domain(runs, s, breathing_hz=breathing_hz,
-                                   estimate=pre.get("estimate"))
-        values.update(v)
-        notes += n
-    if "nonlinear" in s.domains:
-        v, n = nonlinear_domain(segments, s, dfa=pre.get("dfa"), sampen=pre.get("sampen"),
-                                sd12=pre.get("sd12"))
-        values.update(v)
-        notes += n
-    return MetricsResult(values, notes=notes, settings=s, clean_settings=clean_settings)
+            clean_settings: Any = None) -> MetricsResult:
+    """`metrics` after argument checks: ``rec`` and ``s`` as given (a batch of one window)."""
+    rg = Ragged.from_recordings([rec])
+    return compute_batch(rg, s, breathing_hz=[breathing_hz], clean_settings=[clean_settings])[0]
 
 
 def spectrum(
@@ -280,10 +221,10 @@ def spectrum(
     """
     rec, _ = _as_recording(data)
     s = merge_settings(settings, None, psd, bands)
-    bounds = _run_bounds(rec.gaps)
-    t_end = rec.interval_times_s
-    runs = [(t_end[a:b], rec.rr_ms[a:b]) for a, b in bounds]
-    _, notes, est = frequency_domain(runs, s)
+    rg = Ragged.from_recordings([rec])
+    ests = psd_many(rg, s)
+    est = ests[0]
+    notes = frequency_values_many(rg, ests, s, [None])[0][1]
     if est is None:
         raise InputError(
             f"no NN run of {rec!r} lasts {s.min_hf_s:g} s, the shortest a spectrum is "
@@ -295,4 +236,3 @@ def spectrum(
         "total": band_power(est, (b.vlf[0], b.hf[1])),
     })
     return Spectrum(est.freqs_hz, est.psd_ms2_hz, est.method, est.df_hz, b, powers, s, tuple(notes))
-
