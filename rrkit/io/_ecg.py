@@ -194,7 +194,13 @@ def detect_beats(signal, *, fs_hz: float | None, detector: str = DEFAULT_DETECTO
     if fs_hz is None:
         raise InputError(f"reading {what} needs its sampling rate; there is no default",
                          path=path, hint="pass fs= in Hz, for example fs=250")
-    fs = check_range("fs", fs_hz, low=_MIN_FS_HZ, unit="Hz")
+    try:
+        fs = check_range("fs", fs_hz, low=_MIN_FS_HZ, unit="Hz")
+    except InputError:  # the rate may come from the file's header: name the file
+        raise InputError(
+            f"sampling rate {fs_hz!r} Hz, expected at least {_MIN_FS_HZ:g} Hz for R-peak "
+            "detection (a QRS complex spans only a few samples below it)", path=path,
+            hint="check the rate in the file header or fs=") from None
     detector = check_option("detector", detector, DETECTORS)
     sig = np.asarray(signal, dtype=np.float64).ravel()
     if sig.size < _MIN_SEGMENT_S * fs:
