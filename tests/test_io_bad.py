@@ -39,6 +39,13 @@ CASES = [
     ("timestamps_backwards.csv", {}, 4, "timestamp goes backwards by 1.195 s from line 3"),
     ("not_edf.edf", {}, None, r"not_edf.edf: cannot read as EDF \((?!.*not_edf)"),
     ("damaged.atr", {}, None, "cannot read the WFDB annotation file"),
+    # found by the fuzzer (tests/fuzz.py); each record is read through its header and its data
+    ("fuzz_no_signal_name.hea", {}, None, "cannot read the WFDB record"),
+    ("fuzz_no_signal_name.dat", {}, None, "cannot read the WFDB record"),
+    ("fuzz_format_0.hea", {}, None, r"cannot read the WFDB record \(unsupported value '0'\)"),
+    ("fuzz_format_0.dat", {}, None, r"cannot read the WFDB record \(unsupported value '0'\)"),
+    ("fuzz_fs_1e9.hea", {}, None, "sampling rate 1.0 Hz, expected at least 50 Hz"),
+    ("fuzz_fs_1e9.dat", {}, None, "sampling rate 1.0 Hz, expected at least 50 Hz"),
 ]
 
 

@@ -119,7 +119,13 @@ def check_signal(signal, *, fs_hz: float | None, detector: str, detectors: tuple
     if fs_hz is None:
         raise InputError(f"reading {what} needs its sampling rate; there is no default",
                          path=path, hint=f"pass fs= in Hz, for example fs={fs_example}")
-    fs = check_range("fs", fs_hz, low=min_fs_hz, unit="Hz")
+    try:
+        fs = check_range("fs", fs_hz, low=min_fs_hz, unit="Hz")
+    except InputError:  # the rate may come from the file's header: name the file
+        raise InputError(
+            f"sampling rate {fs_hz!r} Hz, expected at least {min_fs_hz:g} Hz for peak "
+            f"detection in {what} (a beat spans only a few samples below it)", path=path,
+            hint="check the rate in the file header or fs=") from None
     detector = check_option("detector", detector, detectors)
     sig = np.asarray(signal, dtype=np.float64).ravel()
     if sig.size < min_s * fs:

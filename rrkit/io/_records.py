@@ -140,24 +140,26 @@ def read_wfdb_record(path: str, *, fs_hz: float | None, column, detector: str,
     try:
         with _quiet_wfdb():
             header = wfdb.rdheader(prefix)
-        k = _pick_channel(list(header.sig_name or []), column, path, signal)
+        labels = [str(s) if s is not None else "" for s in (header.sig_name or [])]
+        k = _pick_channel(labels, column, path, signal)
         with _quiet_wfdb():
             rec = wfdb.rdrecord(prefix, channels=[k])
     except InputError:
         raise
-    except (OSError, ValueError, IndexError) as exc:
-        raise InputError(f"cannot read the WFDB record ({exc})", path=path) from None
+    except (OSError, ValueError, IndexError, KeyError, TypeError, EOFError,
+            ZeroDivisionError, OverflowError) as exc:  # wfdb's reactions to a broken record
+        reason = f"unsupported value {exc}" if isinstance(exc, KeyError) else str(exc)
+        raise InputError(f"cannot read the WFDB record ({reason})", path=path) from None
     fs = _check_fs(fs_hz, rec.fs, path)
     sig = np.asarray(rec.p_signal[:, 0], dtype=np.float64)
     extra: dict[str, Any] = {"format": "WFDB", "record": Path(prefix).name,
                              "signal_unit": (rec.units or [None])[0],
                              "n_samples": int(sig.size),
-                             "column_chosen_by": _channel_reason(list(header.sig_name), k, column,
-                                                                 signal)}
+                             "column_chosen_by": _channel_reason(labels, k, column, signal)}
     return _from_signal(signal, sig, fs_hz=fs, path=str(path), detector=detector,
                                  subject=subject, start=_wfdb_start(header),
-                                 kind_decided_by=kind_decided_by, column=header.sig_name[k],
-                                 extra=extra, what=f"ECG lead {header.sig_name[k]}")
+                                 kind_decided_by=kind_decided_by, column=labels[k],
+                                 extra=extra, what=f"ECG lead {labels[k]}")
 
 
 def read_wfdb_annotations(path: str, *, fs_hz: float | None, subject: str | None,
