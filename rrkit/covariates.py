@@ -36,8 +36,8 @@ re-created from the covariate table alone (`derived_terms` lists the rules):
     Int J Sports Physiol Perform 15:907-913). rrkit offers it because it is widely reported,
     not as a recommendation.
 ``x_within``, ``x_between``
-    within-athlete deviation from the athlete's own mean, and that athlete mean, over the days
-    used in the model (Curran PJ, Bauer DJ 2011, Annu Rev Psychol 62:583-619,
+    within-athlete deviation from the athlete's own mean, and that athlete mean (minus the mean
+    of all athletes' means, which moves only the intercept), over the days used in the model (Curran PJ, Bauer DJ 2011, Annu Rev Psychol 62:583-619,
     doi:10.1146/annurev.psych.093008.100356): entered together they separate the within-athlete
     effect (how a day differs from that athlete's usual day) from the between-athlete effect
     (how athletes with different usual values differ).
@@ -329,7 +329,7 @@ def derived_terms() -> dict[str, str]:
         "_ewma<N>": "exponentially weighted mean, lambda = 2/(N+1) (7: acute, 28: chronic)",
         "_acwr": "ewma7 / ewma28 (acute:chronic ratio; see the criticisms in the docs)",
         "_within": "deviation from the athlete's own mean over the days modelled",
-        "_between": "the athlete's own mean over the days modelled",
+        "_between": "the athlete's own mean over the days modelled (minus the squad's mean)",
     }
 
 
@@ -434,8 +434,11 @@ def add_terms(table, names: Sequence[str], *, centre_rows=None):
                                                                 & np.isfinite(col))
             means = (pd.Series(np.where(use, col, np.nan), index=out.index)
                      .groupby(out["subject"]).transform("mean").to_numpy(dtype=float))
-            col = col - means if steps[-1][0] == "within" else np.where(np.isfinite(col),
-                                                                        means, np.nan)
+            if steps[-1][0] == "within":
+                col = col - means
+            else:  # athlete mean, centred on the mean of the athlete means (grand centring)
+                per = pd.Series(means).groupby(out["subject"].to_numpy()).first()
+                col = np.where(np.isfinite(col), means - float(per.mean()), np.nan)
         out[name] = col
     return out
 

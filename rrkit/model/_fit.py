@@ -331,6 +331,16 @@ def _fit_mixed(formula, data, *, random_slope, reml=True):
     return res, caught
 
 
+def residuals(res) -> np.ndarray:
+    """Residuals of a fit; for a mixed model whose random-effect variance sits on the boundary
+    (zero: the BLUPs are undefined) the marginal residuals, which then equal the conditional."""
+    try:
+        return np.asarray(res.resid, dtype=float)
+    except ValueError:
+        exog = np.asarray(res.model.exog, dtype=float)
+        return np.asarray(res.model.endog, dtype=float) - exog @ np.asarray(res.fe_params)
+
+
 def fit(table, *, settings: ModelSettings | None = None, units: dict | None = None,
         **options) -> ModelResult:
     """Fit the model of ``settings`` to a daily table (already joined with its covariates).
@@ -425,7 +435,7 @@ def fit(table, *, settings: ModelSettings | None = None, units: dict | None = No
                         units=units, steps=steps)
         _add_q(cl_rows)
         rows += mixed_rows + cl_rows
-        resid = np.asarray(res.resid)
+        resid = residuals(res)
         r1 = []
         for _subj, idx in data.groupby("subject").groups.items():
             r = resid[data.index.get_indexer(idx)]
@@ -441,6 +451,9 @@ def fit(table, *, settings: ModelSettings | None = None, units: dict | None = No
             "residual_sd": float(np.sqrt(res.scale)),
             "mean_residual_lag1_autocorrelation": float(np.mean(r1)) if r1 else None,
             "optimiser_warnings": caught,
+            "random_effects_on_boundary": bool(np.min(np.linalg.eigvalsh(cov_re)) <= 1e-10),
+            "degenerate": bool(not np.isfinite(float(res.llf))
+                               or not np.all(np.isfinite(np.asarray(res.bse_fe)))),
             "cluster_check": {"r2": float(cl.rsquared), "r2_adj": float(cl.rsquared_adj),
                               "n_clusters": int(data["subject"].nunique())},
         }

@@ -149,7 +149,9 @@ def plot_partial(result, term: str, path=None):
     b = float(res.params[term])
     se = float(res.bse[term])
     x = rows[term].to_numpy(dtype=float)
-    resid = np.asarray(res.resid, dtype=float)
+    from ._fit import residuals
+
+    resid = residuals(res)
     partial = resid + b * (x - x.mean())
     fig = new_figure(6.4, 4.4)
     ax = fig.add_subplot(1, 1, 1)
