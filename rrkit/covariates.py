@@ -524,6 +524,6 @@ def term_label(name: str, units: dict | None = None) -> tuple[str, str]:
         elif op == "acwr":
             phrase = f"the acute:chronic ratio of {phrase}"
             unit = ""
-    if not steps or steps[0][0] not in ("lag",) and not phrase.startswith("the "):
-        phrase = f"the same day's {phrase}" if not steps else phrase
+    if not steps:
+        phrase = f"that day's {phrase}"
     return phrase, unit

@@ -25,7 +25,7 @@ from ..errors import InputError
 __all__ = ["cli", "error_line", "main"]
 
 # subcommand name -> module under rrkit.cli (one module per command)
-_COMMANDS = ("info", "clean", "analyze", "daily", "agree", "plot", "demo")
+_COMMANDS = ("info", "clean", "analyze", "daily", "agree", "plot", "demo", "model")
 
 
 class _Group(click.Group):

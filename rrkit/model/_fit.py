@@ -59,7 +59,8 @@ class ModelSettings:
     hac_lags : int or None
         HAC lag length (None: `hac_lag_rule` of each athlete's number of days).
     qualities : tuple of str or None
-        Rows kept by the daily table's ``quality`` column (default only ``ok``); None keeps all.
+        Rows kept by the daily table's ``quality`` column (or ``status``, when the table names it
+        so; default only ``ok``); None keeps all. A table with neither column keeps every row.
     """
 
     outcome: str = "ln_rmssd"
@@ -195,8 +196,9 @@ def prepare(table, settings: ModelSettings):
     inner = [t[: t.rfind("_")] for t in rhs if parse_term(t)[1]
              and parse_term(t)[1][-1][0] in ("within", "between")]
     df = add_terms(df, list(dict.fromkeys(timed + inner)))
-    if s.qualities is not None and "quality" in df.columns:
-        df = df[df["quality"].astype(str).isin(s.qualities)]
+    qcol = next((c for c in ("quality", "status") if c in df.columns), None)
+    if s.qualities is not None and qcol is not None:
+        df = df[df[qcol].astype(str).isin(s.qualities)]
     plain = [s.outcome] + [t for t in rhs if not parse_term(t)[1]
                            or parse_term(t)[1][-1][0] not in ("within", "between")] + inner
     for c in dict.fromkeys(plain):
@@ -228,6 +230,12 @@ def prepare(table, settings: ModelSettings):
         if s.by == "squad" and g["subject"].nunique() < 2:
             raise InputError(f"the squad model needs at least 2 athletes; found "
                              f"{g['subject'].nunique()}", hint="use by='subject' for one athlete")
+        n_between = sum(t.endswith("_between") for t in rhs)
+        if s.by == "squad" and n_between + 2 > g["subject"].nunique():
+            raise InputError(f"the squad has {g['subject'].nunique()} athletes for "
+                             f"{n_between} between-athlete terms plus the intercept and the "
+                             "athletes' spread: a mixed model needs at least 2 more athletes "
+                             "than between-athlete terms", hint="use fewer terms, or --no-split")
     return df, rhs
 
 
@@ -296,7 +304,9 @@ def _rows(res, *, model: str, subject: str, se_type: str, data, terms, units, st
             between = bool(chain) and chain[-1][0] == "between"
             wsd = np.nan if between else _within_sd(data, name)
             step = steps.get(name, 1.0)
-            unit = units.get(base) or term_label(base)[1]
+            core = name[: name.rfind("_")] if chain and chain[-1][0] in ("within", "between") \
+                else name
+            unit = term_label(core, units)[1]
             row.update(per_unit=est * step, unit=_unit_text(step, unit),
                        within_sd=wsd, per_within_sd=est * wsd)
         out.append(row)
@@ -322,12 +332,17 @@ def _fit_mixed(formula, data, *, random_slope, reml=True):
     import statsmodels.formula.api as smf
 
     re_formula = f"~{random_slope}" if random_slope else None
-    caught: list[str] = []
-    with warnings.catch_warnings(record=True) as w:
-        warnings.simplefilter("always")
-        model = smf.mixedlm(formula, data=data, groups=data["subject"], re_formula=re_formula)
-        res = model.fit(reml=reml, method=["lbfgs", "powell"])
-    caught = sorted({str(x.message).split("\n")[0] for x in w})
+    res = None
+    for method in (None, "powell", "nm"):  # statsmodels' default chain first, then two others
+        with warnings.catch_warnings(record=True) as w:
+            warnings.simplefilter("always")
+            model = smf.mixedlm(formula, data=data, groups=data["subject"],
+                                re_formula=re_formula)
+            res = model.fit(reml=reml) if method is None else model.fit(reml=reml,
+                                                                        method=method)
+        caught = sorted({str(x.message).split("\n")[0] for x in w})
+        if np.isfinite(float(res.llf)) and np.all(np.isfinite(np.asarray(res.bse_fe))):
+            break
     return res, caught
 
 

@@ -53,7 +53,7 @@ def plain_lines(result, *, model: str | None = None) -> list[str]:
             where = ", within athletes"
             term = r.term[: r.term.rfind("_")]
         elif steps and steps[-1][0] == "between":
-            where = ", between athletes (per unit of the athlete's usual value)"
+            where = ", between athletes (comparing athletes whose usual values differ so)"
             term = r.term[: r.term.rfind("_")]
         phrase, _unit = term_label(term, result.units)
         lagged = any(op == "lag" for op, _ in parse_term(term)[1])
@@ -92,11 +92,10 @@ def _save(fig, path) -> Path:
 
 
 def plot_coefficients(result, path=None):
-    """Forest figure: each term's effect per within-athlete SD with its 95% CI, per fit.
+    """Forest figure: each term's effect per step (the round step of the table's ``unit``
+    column, near one SD of the term) with its 95% CI, for each fit of the result."""
+    import textwrap
 
-    Effects are shown per within-athlete SD of each term so that terms in different units share
-    one axis; the CSV has the per-unit values.
-    """
     from ..plots._style import OKABE_ITO, new_figure
 
     coef = result.coefficients[result.coefficients["term"] != "Intercept"].copy()
@@ -105,31 +104,36 @@ def plot_coefficients(result, path=None):
     colours = [OKABE_ITO[k] for k in ("blue", "vermillion", "green", "purple", "orange", "sky",
                                       "black", "grey")]
     markers = ["o", "s", "D", "^", "v", "P", "X", "*"]
-    height = 1.4 + 0.32 * len(terms) * max(1, min(len(fits), 4))
-    fig = new_figure(7.4, min(height, 11.0))
-    ax = fig.add_subplot(1, 1, 1)
     n = len(fits)
-    offsets = np.linspace(-0.28, 0.28, n) if n > 1 else np.zeros(1)
+    height = 2.2 + 0.28 * len(terms) * max(1, min(n, 4))
+    fig = new_figure(8.0, min(height, 11.0))
+    ax = fig.add_subplot(1, 1, 1)
+    offsets = np.linspace(-0.3, 0.3, n) if n > 1 else np.zeros(1)
     for j, (model, subject) in enumerate(fits):
-        d = coef[(coef["model"] == model) & (coef["subject"] == subject)].set_index("term")
-        y = np.array([terms.index(t) for t in d.index], dtype=float) + offsets[j]
-        sd = d["within_sd"].to_numpy(dtype=float)
-        ax.errorbar(d["estimate"] * sd, y, xerr=[(d["estimate"] - d["ci_low"]) * sd,
-                                                 (d["ci_high"] - d["estimate"]) * sd],
-                    fmt=markers[j % len(markers)], color=colours[j % len(colours)], ms=5,
-                    capsize=2.5, lw=1.2, label=f"{subject}, {model}")
+        d = coef[(coef["model"] == model) & (coef["subject"] == subject)]
+        y = np.array([terms.index(t) for t in d["term"]], dtype=float) + offsets[j]
+        est = d["estimate"].to_numpy(dtype=float)
+        step = np.where(est != 0, d["per_unit"].to_numpy(dtype=float) / np.where(est != 0, est,
+                                                                                   1.0), 1.0)
+        lo = d["ci_low"].to_numpy(dtype=float) * step
+        hi = d["ci_high"].to_numpy(dtype=float) * step
+        mid = est * step
+        ax.errorbar(mid, y, xerr=[mid - lo, hi - mid], fmt=markers[j % len(markers)],
+                    color=colours[j % len(colours)], ms=5, capsize=2.5, lw=1.2,
+                    label=f"{subject}, {model}" if subject != "squad" else model)
     ax.axvline(0.0, color=OKABE_ITO["grey"], lw=0.9, zorder=0)
-    ax.set_yticks(range(len(terms)), _labels(terms, result.units), fontsize=8.5)
+    first = coef.drop_duplicates("term").set_index("term")
+    labels = [f"{lab}\nper {first.loc[t, 'unit']}" for t, lab in
+              zip(terms, _labels(terms, result.units), strict=True)]
+    ax.set_yticks(range(len(terms)), labels, fontsize=8)
     ax.invert_yaxis()
-    ax.set_xlabel(f"change in {outcome_label(result.settings.outcome)} per within-athlete SD "
-                  "of the term (95% CI)", fontsize=9)
-    ax.set_title(result.formula, fontsize=9, loc="left")
+    ax.set_xlabel(f"change in {outcome_label(result.settings.outcome)} (95% CI)\n"
+                  "associations in observational data, not causes", fontsize=8.5)
+    ax.set_title("\n".join(textwrap.wrap(result.formula, 80)), fontsize=8.5, loc="left")
     ax.grid(axis="x", color="#e6e6e6", lw=0.6)
     ax.spines[["top", "right"]].set_visible(False)
     if n > 1:
         ax.legend(fontsize=7.5, frameon=False, loc="upper left", bbox_to_anchor=(1.01, 1.0))
-    fig.text(0.01, 0.0, "Associations in observational data, not causes.", fontsize=7.5,
-             color="#555555", ha="left", va="bottom")
     if path is not None:
         _save(fig, path)
     return fig
@@ -180,7 +184,8 @@ def plot_partial(result, term: str, path=None):
     ax.set_xlabel(f"{_labels([term], result.units)[0]}" + (f" ({unit})" if unit else ""),
                   fontsize=9)
     ax.set_ylabel(f"{outcome_label(result.settings.outcome)}, partial residual", fontsize=9)
-    ax.set_title(f"{term}: {b:+.3g} per unit (95% CI {b - tq * se:+.3g} to {b + tq * se:+.3g})"
+    per = f"per {unit}" if unit else "per unit"
+    ax.set_title(f"{term}: {b:+.3g} {per} (95% CI {b - tq * se:+.3g} to {b + tq * se:+.3g})"
                  f"  [{key}]", fontsize=9, loc="left")
     ax.spines[["top", "right"]].set_visible(False)
     if len(set(subjects)) <= 10:
