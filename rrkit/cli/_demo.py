@@ -116,9 +116,11 @@ def command(outdir: Path, data: Path | None, jobs: int | None, quiet: bool) -> i
     figures = _figures(folder, out, daily_run, load=load, meta=meta, ectopy=ectopy, agree=agree,
                        note=prog.note)
 
+    modelling = _modelling(folder, out, daily_run.table, note=prog.note)
+
     prog.step(5, "summary")
     text = _summary(daily_run, lab=lab, agree=agree, ectopy=ectopy, figures=figures, out=out,
-                    meta=meta, folder=folder)
+                    meta=meta, folder=folder) + modelling
     atomic_write_text(out / "summary.txt", text, fsync=False)
     click.echo(text)
     return 0
@@ -262,6 +264,47 @@ def _figures(folder, out, run, *, load, meta, ectopy, agree, note):
         written.append(path)
     note(f"{len(written)} figures in {fig_dir}")
     return written
+
+
+def _modelling(folder: Path, out: Path, table, *, note) -> str:
+    """Sleep and load against the mornings, within vs between athletes vs a naive pooled fit,
+    with what the simulation planted; writes model/ (tables, figures). Empty without the log."""
+    from .. import covariates as cov
+    from ..model import CAUTION, compare_pooled, plain_lines, write_outputs
+    from ..simulate import _squad_log as planted
+
+    paths = [folder / "training_load.csv", folder / "daily_log.csv"]
+    if not all(p.is_file() for p in paths):
+        return ""
+    tabs = [cov.read(p) for p in paths]
+    units = {**tabs[0].units, **tabs[1].units}
+    joined = cov.join(cov.join(table, tabs[0], terms=["load_au_lag1"]), tabs[1])
+    sleep, sleep_lines, fit_sleep = compare_pooled(joined, term="sleep_h",
+                                                   adjust=("load_au_lag1",), units=units)
+    load, load_lines, _fit = compare_pooled(joined, term="load_au_lag1", outcome="wellness_pts",
+                                            adjust=("sleep_h",), units=units)
+    folder_out = out / "model"
+    write_outputs(fit_sleep, folder_out, partial_term="sleep_h_within",
+                  lines=sleep_lines + load_lines)
+    _write_csv(folder_out / "within_between_pooled.csv",
+               __import__("pandas").concat([sleep.assign(outcome="ln_rmssd"),
+                                            load.assign(outcome="wellness_pts")]))
+    note(f"modelling: within vs between athletes vs pooled, in {folder_out}")
+    half = planted.SLEEP_WITHIN_LN_PER_H / 2
+    lines = ["", "Modelling the season (rrkit model; the simulation planted the true relations):",
+             f"  The night's sleep and that morning's ln-RMSSD, {fit_sleep.formula}",
+             *(f"    {x}" for x in sleep_lines),
+             f"    planted: {half:+.3f} per 0.5 h within athletes; between athletes the ones "
+             "with higher ln-RMSSD sleep less.",
+             "  Previous day's load and the wellness score (5-25):",
+             *(f"    {x}" for x in load_lines[:1]),
+             f"    planted: {planted.WELLNESS_PER_500AU:+.2f} per 500 AU within athletes.",
+             "  The same load against ln-RMSSD (the mornings were simulated with training "
+             "phases but no day-to-day load term):",
+             *(f"    {x}" for x in plain_lines(fit_sleep, model="mixed")
+               if "previous day's load, within" in x),
+             f"  {CAUTION}"]
+    return "\n".join(lines) + "\n"
 
 
 # --------------------------------------------------------------------------------- summary

@@ -19,7 +19,8 @@ CAUTION = ("These are associations in observational data, not causes: days diffe
            "decisions rest with qualified staff who know the athlete.")
 
 _OUTCOMES = {"ln_rmssd": "ln-RMSSD", "ln_rmssd_7d": "7-day mean ln-RMSSD",
-             "mean_hr_bpm": "resting HR (bpm)", "rmssd_ms": "RMSSD (ms)"}
+             "mean_hr_bpm": "resting HR (bpm)", "rmssd_ms": "RMSSD (ms)",
+             "wellness_pts": "the wellness score"}
 
 
 def outcome_label(name: str) -> str:
