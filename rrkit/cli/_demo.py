@@ -279,10 +279,16 @@ def _modelling(folder: Path, out: Path, table, *, note) -> str:
     tabs = [cov.read(p) for p in paths]
     units = {**tabs[0].units, **tabs[1].units}
     joined = cov.join(cov.join(table, tabs[0], terms=["load_au_lag1"]), tabs[1])
-    sleep, sleep_lines, fit_sleep = compare_pooled(joined, term="sleep_h",
-                                                   adjust=("load_au_lag1",), units=units)
-    load, load_lines, _fit = compare_pooled(joined, term="load_au_lag1", outcome="wellness_pts",
-                                            adjust=("sleep_h",), units=units)
+    try:
+        sleep, sleep_lines, fit_sleep = compare_pooled(joined, term="sleep_h",
+                                                       adjust=("load_au_lag1",), units=units)
+        load, load_lines, _fit = compare_pooled(joined, term="load_au_lag1",
+                                                outcome="wellness_pts", adjust=("sleep_h",),
+                                                units=units)
+    except InputError as exc:  # a reduced squad too small for the squad model
+        note(f"modelling skipped: {exc}")
+        return f"\nModelling skipped: {exc}\n"
+
     folder_out = out / "model"
     write_outputs(fit_sleep, folder_out, partial_term="sleep_h_within",
                   lines=sleep_lines + load_lines)

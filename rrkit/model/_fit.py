@@ -220,7 +220,7 @@ def prepare(table, settings: ModelSettings):
             raise InputError(f"{who} has {len(g)} complete days for {n_params} parameters "
                              f"({s.outcome} ~ {' + '.join(rhs)} plus the intercept): a model "
                              "needs more days than parameters", hint="use fewer terms or more "
-                             "days (terms with lags or rolling windows lose the first days)")
+                             "days; terms with lags or rolling windows lose their first days")
         for t in rhs:
             v = g[t].to_numpy(dtype=float)
             if np.ptp(v) <= 1e-12 * max(1.0, float(np.max(np.abs(v)))):
@@ -265,10 +265,15 @@ def _ols_core(formula: str, data, *, se: str, maxlags: int | None):
     """statsmodels OLS from a formula, with HAC (Newey-West) or classical errors."""
     import statsmodels.formula.api as smf
 
-    model = smf.ols(formula, data=data)
+    return ols_errors(smf.ols(formula, data=data), se=se, maxlags=maxlags)
+
+
+def ols_errors(model, *, se: str, maxlags: int | None):
+    """Fit a statsmodels OLS model with rrkit's error settings: classical, or Newey-West HAC
+    with `hac_lag_rule` lags (unless given) and statsmodels' small-sample correction."""
     if se == "classical":
         return model.fit()
-    lags = hac_lag_rule(len(data)) if maxlags is None else int(maxlags)
+    lags = hac_lag_rule(int(model.nobs)) if maxlags is None else int(maxlags)
     return model.fit(cov_type="HAC", cov_kwds={"maxlags": lags, "use_correction": True})
 
 
