@@ -7,7 +7,7 @@ agreement of device-reported values with recomputed ones.
 rrkit is not a medical device and makes no diagnosis.
 """
 
-from . import windows
+from . import covariates, model, windows
 from ._version import __version__
 from .agreement import (
     AgreementResult,
@@ -61,6 +61,9 @@ __all__ = [
     "DailySettings",
     "daily_table",
     "run_daily",
+    # covariates and models of the daily table
+    "covariates",
+    "model",
     # agreement
     "AgreementResult",
     "DefinitionSearch",

@@ -490,7 +490,13 @@ def join(daily, covariates: CovariateTable, *, terms: Sequence[str] = ()):
                 inner = t[: t.rfind("_")]
             if inner != base:
                 time_terms.append(inner)
-    cov = add_terms(cov, list(dict.fromkeys(time_terms)))
+    if time_terms:  # the calendar covers the daily table's days too (a lag reaches past them)
+        keys = pd.DataFrame({"subject": daily["subject"].astype(str),
+                             "date": _parse_dates(daily["date"], Path("the daily table"))})
+        keys = keys.drop_duplicates()
+        cov = (pd.merge(cov, keys, on=["subject", "date"], how="outer")
+               .sort_values(["subject", "date"], kind="stable").reset_index(drop=True))
+        cov = add_terms(cov, list(dict.fromkeys(time_terms)))
     left = daily.copy()
     left["_key_date"] = [str(d)[:10] for d in left["date"]]
     left["_key_subject"] = left["subject"].astype(str)

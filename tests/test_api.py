@@ -15,6 +15,7 @@ PUBLIC = {
     "RrkitWarning", "Spectrum", "Window", "__version__", "agreement", "analyze", "clean",
     "daily_table", "metrics", "parse_window", "read", "reference_table", "resolve_windows",
     "run_daily", "search_definitions", "spectrum", "windows", "write_rr",
+    "covariates", "model",
 }
 
 

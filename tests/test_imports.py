@@ -31,7 +31,9 @@ RANK = {
     "daily": 7, "agreement": 7, "_agreement_stats": 7, "_agreement_text": 7,
     "_agreement_search": 7,
     "io.store": 7,     # the HDF5 store keeps clean results and window metrics
+    "covariates": 7,   # daily covariates joined onto the daily table
     "batch": 8,
+    "model": 8,        # models of the (joined) daily table; figures from plots
     "plots": 7,        # figures draw results of the stages before; results offer .plot()
     "simulate": 9,     # simulations sit on top: the demo squad is built with the whole pipeline
     "cli": 10,
@@ -129,7 +131,7 @@ def test_each_stage_imports_on_its_own():
 def test_import_rrkit_is_light():
     code = (
         "import sys, rrkit\n"
-        "lazy = ('matplotlib', 'pyarrow', 'wfdb', 'pyedflib', 'pingouin', 'numba')\n"
+        "lazy = ('matplotlib', 'pyarrow', 'wfdb', 'pyedflib', 'pingouin', 'numba', 'statsmodels')\n"
         "heavy = [m for m in lazy if m in sys.modules]\n"
         "print(heavy)\n"
         "sys.exit(1 if heavy else 0)\n"
