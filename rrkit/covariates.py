@@ -37,7 +37,8 @@ re-created from the covariate table alone (`derived_terms` lists the rules):
     not as a recommendation.
 ``x_within``, ``x_between``
     within-athlete deviation from the athlete's own mean, and that athlete mean (minus the mean
-    of all athletes' means, which moves only the intercept), over the days used in the model (Curran PJ, Bauer DJ 2011, Annu Rev Psychol 62:583-619,
+    of all athletes' means, which moves only the intercept), over the days used in the model
+    (Curran PJ, Bauer DJ 2011, Annu Rev Psychol 62:583-619,
     doi:10.1146/annurev.psych.093008.100356): entered together they separate the within-athlete
     effect (how a day differs from that athlete's usual day) from the between-athlete effect
     (how athletes with different usual values differ).
@@ -117,7 +118,7 @@ def _read_frame(path: Path):
                              hint="pip install pyarrow") from exc
         except Exception as exc:
             raise InputError(f"not a readable Parquet file ({exc})", path=path) from exc
-    if not (suffix.endswith(".csv") or suffix.endswith(".csv.gz") or suffix.endswith(".txt")):
+    if not suffix.endswith((".csv", ".csv.gz", ".txt")):
         raise InputError(f"unknown covariate file type {path.suffix!r}", path=path,
                          hint="give a .csv or .parquet file")
     try:
@@ -262,7 +263,8 @@ def read(path, *, units=None, season: tuple | None = None) -> CovariateTable:
                     unit_col.setdefault(v, str(u).strip())
         long = pd.DataFrame({"subject": subjects, "date": dates, "variable": variables,
                              "value": values})
-        wide = long.pivot(index=["subject", "date"], columns="variable", values="value")
+        # keys are unique (checked above), so pivot cannot aggregate
+        wide = long.pivot(index=["subject", "date"], columns="variable", values="value")  # noqa: PD010
         wide.columns.name = None
         wide = wide.reset_index()
         names = sorted(set(variables))
@@ -494,7 +496,7 @@ def join(daily, covariates: CovariateTable, *, terms: Sequence[str] = ()):
         keys = pd.DataFrame({"subject": daily["subject"].astype(str),
                              "date": _parse_dates(daily["date"], Path("the daily table"))})
         keys = keys.drop_duplicates()
-        cov = (pd.merge(cov, keys, on=["subject", "date"], how="outer")
+        cov = (cov.merge(keys, on=["subject", "date"], how="outer")
                .sort_values(["subject", "date"], kind="stable").reset_index(drop=True))
         cov = add_terms(cov, list(dict.fromkeys(time_terms)))
     left = daily.copy()
@@ -502,8 +504,8 @@ def join(daily, covariates: CovariateTable, *, terms: Sequence[str] = ()):
     left["_key_subject"] = left["subject"].astype(str)
     right = cov.drop(columns=["subject", "date"]).assign(
         _key_date=[str(d)[:10] for d in cov["date"]], _key_subject=cov["subject"].astype(str))
-    merged = pd.merge(left, right, on=["_key_subject", "_key_date"], how="left", sort=False,
-                      validate="many_to_one")
+    merged = left.merge(right, on=["_key_subject", "_key_date"], how="left", sort=False,
+                        validate="many_to_one")
     merged.index = daily.index
     return merged.drop(columns=["_key_date", "_key_subject"])
 

@@ -27,7 +27,8 @@ def test_read_wide_with_units_from_names(tmp_path):
     t = c.table
     assert list(t["subject"]) == ["A", "A", "B"]  # sorted by subject and date
     assert t["date"].iloc[0] == dt.date(2026, 1, 1)
-    assert np.isnan(t["sleep_h"].iloc[0]) and np.isnan(t["mood"].iloc[2])
+    assert np.isnan(t["sleep_h"].iloc[0])
+    assert np.isnan(t["mood"].iloc[2])
 
 
 def test_read_long_and_units_side_table_and_parquet(tmp_path):
@@ -58,7 +59,8 @@ def test_read_long_and_units_side_table_and_parquet(tmp_path):
      r"column 'load_lag1': a variable name must be a formula identifier"),
     ("subject,date,variable,value\nA,2026-01-01,x,1\nA,2026-01-01,x,2\n",
      r"line 3: columns 'subject, date, variable': A 2026-01-01 'x' appears twice"),
-    ("subject,date,load_au\nA,2026-01-01,inf\n", r"line 2: column 'load_au': 'inf' is not a finite"),
+    ("subject,date,load_au\nA,2026-01-01,inf\n",
+     r"line 2: column 'load_au': 'inf' is not a finite"),
 ])
 def test_validation_names_file_line_and_column(tmp_path, text, message):
     p = _write(tmp_path / "c.csv", text)

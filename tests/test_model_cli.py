@@ -71,7 +71,8 @@ def test_n_of_1_model_prints_hac_and_diagnostics(season, tmp_path, capsys):
     assert rc == 0
     assert "R02: ln-RMSSD next morning changes by" in text
     assert "per 500 AU of the previous day's load [ols_hac" in text
-    assert "Durbin-Watson" in text and "Ljung-Box" in text
+    assert "Durbin-Watson" in text
+    assert "Ljung-Box" in text
     assert "HAC 2 lags" in text  # floor(4 (n/100)^(2/9)) for about 27 days
     coef = pd.read_csv(tmp_path / "r02" / "coefficients.csv")
     assert set(coef["subject"]) == {"R02"}

@@ -5,7 +5,8 @@ Console example (from a checkout, after ``rrkit daily ... -o season/``)::
     $ rrkit model season/daily.csv --covariates data_samples/training_load.csv \\
           --covariates data_samples/daily_log.csv --adjust sleep_h,load_au_lag1 -o model/
     $ rrkit model season/daily.csv --covariates data_samples/training_load.csv \\
-          --by subject --subject R01 --adjust load_au_lag1 --candidates load_au_sum3,load_au_acwr -o r01/
+          --by subject --subject R01 --adjust load_au_lag1 \\
+          --candidates load_au_sum3,load_au_acwr -o r01/
 
 Writes coefficients.csv, [screening.csv], diagnostics.json, model.json, coefficients.png,
 partial_effect.png and summary.txt into OUTDIR, and prints the plain-language lines.

@@ -27,6 +27,7 @@ from ._report import (
 )
 from ._screen import bh_qvalues, screen
 
-__all__ = ["BY", "CAUTION", "SE_TYPES", "ModelResult", "ModelSettings", "bh_qvalues", "compare_pooled", "fit",
+__all__ = ["BY", "CAUTION", "SE_TYPES", "ModelResult", "ModelSettings", "bh_qvalues",
+           "compare_pooled", "fit",
            "hac_lag_rule", "nice_step", "outcome_label", "plain_lines", "plot_coefficients",
            "plot_partial", "prepare", "screen", "write_outputs"]

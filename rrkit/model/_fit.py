@@ -28,9 +28,9 @@ def hac_lag_rule(n: int) -> int:
     """Newey-West lag length ``floor(4 (n / 100) ** (2 / 9))`` for ``n`` days.
 
     The rule of thumb of Newey WK, West KD 1994 (Rev Econ Stud 61:631-653) as commonly quoted
-    (common practice); it grows slowly with the series: 2 lags for 20 days, 3 for 60, 4 for 120.
+    (common practice); it grows slowly with the series: 2 lags up to 27 days, 3 for 28-99, 4 for 100-272.
     """
-    return int(math.floor(4.0 * (max(int(n), 1) / 100.0) ** (2.0 / 9.0)))
+    return math.floor(4.0 * (max(int(n), 1) / 100.0) ** (2.0 / 9.0))
 
 
 @dataclass(frozen=True, slots=True)
@@ -131,7 +131,7 @@ class ModelResult:
     def provenance(self) -> dict:
         """Formula, settings and version, as written to ``model.json``."""
         return {"formula": self.formula, "settings": self.settings.as_dict(),
-                "rrkit_version": self.version, "n_rows": int(len(self.data))}
+                "rrkit_version": self.version, "n_rows": len(self.data)}
 
 
 # ----------------------------------------------------------------------------- preparation
@@ -188,10 +188,10 @@ def prepare(table, settings: ModelSettings):
     if s.subject is not None:
         df = df[df["subject"] == str(s.subject)]
         if not len(df):
-            raise InputError(f"subject {s.subject!r} is not in the table "
-                             f"(subjects: {', '.join(sorted(table['subject'].astype(str).unique()))})")
+            known = ", ".join(sorted(table["subject"].astype(str).unique()))
+            raise InputError(f"subject {s.subject!r} is not in the table (subjects: {known})")
     # time terms on every row (the calendar needs the days around), centring on the used rows
-    timed = [t for t in rhs + [s.outcome] if parse_term(t)[1]
+    timed = [t for t in [*rhs, s.outcome] if parse_term(t)[1]
              and parse_term(t)[1][-1][0] not in ("within", "between")]
     inner = [t[: t.rfind("_")] for t in rhs if parse_term(t)[1]
              and parse_term(t)[1][-1][0] in ("within", "between")]
@@ -286,7 +286,8 @@ def _residual_checks(resid: np.ndarray) -> dict:
     lb = acorr_ljungbox(resid, lags=[lags], return_df=True)
     r1 = float(np.corrcoef(resid[:-1], resid[1:])[0, 1]) if n > 2 else float("nan")
     return {"durbin_watson": float(durbin_watson(resid)), "ljung_box_lags": int(lags),
-            "ljung_box_q": float(lb["lb_stat"].iloc[0]), "ljung_box_p": float(lb["lb_pvalue"].iloc[0]),
+            "ljung_box_q": float(lb["lb_stat"].iloc[0]),
+            "ljung_box_p": float(lb["lb_pvalue"].iloc[0]),
             "residual_lag1_autocorrelation": r1}
 
 
@@ -301,11 +302,11 @@ def _rows(res, *, model: str, subject: str, se_type: str, data, terms, units, st
         row = {"model": model, "subject": subject, "term": name, "estimate": est,
                "ci_low": float(ci[i, 0]), "ci_high": float(ci[i, 1]),
                "se": float(res.bse.iloc[i]), "se_type": se_type, "p": float(res.pvalues.iloc[i]),
-               "q": np.nan, "n_days": int(len(data)), "n_athletes": int(data["subject"].nunique())}
+               "q": np.nan, "n_days": len(data), "n_athletes": int(data["subject"].nunique())}
         if name == "Intercept":
             row.update(per_unit=np.nan, unit="", within_sd=np.nan, per_within_sd=np.nan)
         else:
-            base, chain = parse_term(name)
+            _base, chain = parse_term(name)
             between = bool(chain) and chain[-1][0] == "between"
             wsd = np.nan if between else _within_sd(data, name)
             step = steps.get(name, 1.0)
@@ -421,7 +422,7 @@ def fit(table, *, settings: ModelSettings | None = None, units: dict | None = No
                              units=units, steps=steps)
             _add_q(sub_rows)
             rows += sub_rows
-            d = {"model": "ols", "n_days": int(len(g)), "r2": float(res.rsquared),
+            d = {"model": "ols", "n_days": len(g), "r2": float(res.rsquared),
                  "r2_adj": float(res.rsquared_adj), "residual_sd": float(np.sqrt(res.scale)),
                  "hac_lags": lags if s.se == "hac" else None}
             d.update(_residual_checks(np.asarray(res.resid)))
@@ -435,7 +436,7 @@ def fit(table, *, settings: ModelSettings | None = None, units: dict | None = No
                      se_type="naive pooled OLS (classical)", data=data, terms=rhs, units=units,
                      steps=steps)
         _add_q(rows)
-        d = {"model": "ols_pooled", "n_days": int(len(data)), "r2": float(res.rsquared),
+        d = {"model": "ols_pooled", "n_days": len(data), "r2": float(res.rsquared),
              "r2_adj": float(res.rsquared_adj), "residual_sd": float(np.sqrt(res.scale))}
         d.update(_residual_checks(np.asarray(res.resid)))
         diags["squad"] = d
@@ -463,7 +464,7 @@ def fit(table, *, settings: ModelSettings | None = None, units: dict | None = No
                 r1.append(float(np.corrcoef(r[:-1], r[1:])[0, 1]))
         cov_re = np.asarray(res.cov_re)
         diags["squad"] = {
-            "model": "mixed", "n_days": int(len(data)), "n_athletes": int(data["subject"].nunique()),
+            "model": "mixed", "n_days": len(data), "n_athletes": int(data["subject"].nunique()),
             "random_slope": s.random_slope, "log_likelihood_reml": float(res.llf),
             "converged": bool(getattr(res, "converged", True)),
             "random_intercept_sd": float(np.sqrt(cov_re[0, 0])),

@@ -47,7 +47,7 @@ def plain_lines(result, *, model: str | None = None) -> list[str]:
         coef = coef[coef["model"] == model]
     out = []
     for r in coef[coef["term"] != "Intercept"].itertuples(index=False):
-        base, steps = parse_term(r.term)
+        _base, steps = parse_term(r.term)
         where = ""
         term = r.term
         if steps and steps[-1][0] == "within":
@@ -72,9 +72,9 @@ def plain_lines(result, *, model: str | None = None) -> list[str]:
 def _labels(terms, units) -> list[str]:
     out = []
     for t in terms:
-        base, steps = parse_term(t)
+        _base, steps = parse_term(t)
         core = t[: t.rfind("_")] if steps and steps[-1][0] in ("within", "between") else t
-        phrase, unit = term_label(core, units)
+        phrase, _unit = term_label(core, units)
         tag = {"within": " (within)", "between": " (between)"}.get(
             steps[-1][0] if steps else "", "")
         out.append(f"{phrase}{tag}")

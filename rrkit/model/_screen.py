@@ -111,7 +111,7 @@ def screen(table, *, outcome: str = "ln_rmssd", base=(), candidates=(), by: str 
                             "delta_r2_adj": float(full.fits[str(subj)].rsquared_adj
                                                   - res_b.rsquared_adj),
                             "lr_stat": np.nan, "lr_df": np.nan, "p": row["p"],
-                            "n_days": int(len(g))})
+                            "n_days": len(g)})
         else:
             res_f, _w1 = _fit_mixed(full.formula, data, random_slope=None, reml=False)
             res_b, _w2 = _fit_mixed(f"{outcome} ~ {rhs_base}", data, random_slope=None,
@@ -124,7 +124,7 @@ def screen(table, *, outcome: str = "ln_rmssd", base=(), candidates=(), by: str 
                         "estimate": float(res_f.params.iloc[i]), "ci_low": float(ci[0]),
                         "ci_high": float(ci[1]), "se_type": "mixed model (ML, Wald)",
                         "delta_r2_adj": np.nan, "lr_stat": lr, "lr_df": df,
-                        "p": float(stats.chi2.sf(lr, df)), "n_days": int(len(data))})
+                        "p": float(stats.chi2.sf(lr, df)), "n_days": len(data)})
     table_out = pd.DataFrame(out)
     table_out["q"] = np.nan
     for _subj, idx in table_out.groupby("subject").groups.items():

@@ -17,8 +17,8 @@ What the generator plants (the ground truth the demo and the docs can show):
   days, which the estimate has to see through). Sleep is therefore shorter at altitude too.
 * **sleep between athletes runs the other way**: athletes with a higher usual ln-RMSSD sleep
   *less* on average (`SLEEP_BETWEEN_H_PER_LN`: -1.5 h per ln unit of usual ln-RMSSD, plus an
-  invented offset of up to 0.25 h per athlete; about -0.6 ln per hour of usual sleep), so a pooled regression that ignores who is who reads a
-  negative slope.
+  invented offset of up to 0.25 h per athlete; about -0.6 ln per hour of usual sleep), so a
+  pooled regression that ignores who is who reads a negative slope.
 * **load and wellness, within athletes**: each 500 AU of the previous day's training load
   (``load_au`` of training_load.csv) lowers the wellness score by `WELLNESS_PER_500AU`
   (1.5 points on the 5-25 scale) against that athlete's usual score; an hour more sleep raises
