@@ -185,9 +185,13 @@ def plot_partial(result, term: str, path=None):
     ax.set_xlabel(f"{_labels([term], result.units)[0]}" + (f" ({unit})" if unit else ""),
                   fontsize=9)
     ax.set_ylabel(f"{outcome_label(result.settings.outcome)}, partial residual", fontsize=9)
-    per = f"per {unit}" if unit else "per unit"
-    ax.set_title(f"{term}: {b:+.3g} {per} (95% CI {b - tq * se:+.3g} to {b + tq * se:+.3g})"
-                 f"  [{key}]", fontsize=9, loc="left")
+    coef = result.coefficients
+    row = coef[(coef["term"] == term)
+               & (coef["subject"] == ("squad" if key in ("mixed", "ols_cluster", "ols_pooled")
+                                      else key))].iloc[0]
+    step = row["per_unit"] / b if b else 1.0
+    ax.set_title(f"{term}: {b * step:+.3g} per {row['unit']} (95% CI {(b - tq * se) * step:+.3g}"
+                 f" to {(b + tq * se) * step:+.3g})  [{key}]", fontsize=9, loc="left")
     ax.spines[["top", "right"]].set_visible(False)
     if len(set(subjects)) <= 10:
         ax.legend(fontsize=7, frameon=False, loc="upper left", bbox_to_anchor=(1.01, 1.0))
