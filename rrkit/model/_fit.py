@@ -28,7 +28,8 @@ def hac_lag_rule(n: int) -> int:
     """Newey-West lag length ``floor(4 (n / 100) ** (2 / 9))`` for ``n`` days.
 
     The rule of thumb of Newey WK, West KD 1994 (Rev Econ Stud 61:631-653) as commonly quoted
-    (common practice); it grows slowly with the series: 2 lags up to 27 days, 3 for 28-99, 4 for 100-272.
+    (common practice); it grows slowly with the series: 2 lags up to 27 days, 3 for 28-99,
+    4 for 100-272.
     """
     return math.floor(4.0 * (max(int(n), 1) / 100.0) ** (2.0 / 9.0))
 
@@ -362,8 +363,10 @@ def residuals(res) -> np.ndarray:
         return np.asarray(res.model.endog, dtype=float) - exog @ np.asarray(res.fe_params)
 
 
-def fit(table, *, settings: ModelSettings | None = None, units: dict | None = None,
-        **options) -> ModelResult:
+def fit(table, *, outcome: str = "ln_rmssd", terms=(), by: str = "subject",
+        subject: str | None = None, split: bool = True, random_slope: str | None = None,
+        se: str = "hac", hac_lags: int | None = None, qualities=("ok",),
+        settings: ModelSettings | None = None, units: dict | None = None) -> ModelResult:
     """Fit the model of ``settings`` to a daily table (already joined with its covariates).
 
     Parameters
@@ -371,8 +374,11 @@ def fit(table, *, settings: ModelSettings | None = None, units: dict | None = No
     table : pandas.DataFrame
         Daily table rows with ``subject``, ``date``, the outcome and the term columns (base
         columns are enough: derived terms are computed, see `rrkit.covariates`).
+    outcome, terms, by, subject, split, random_slope, se, hac_lags, qualities
+        What to fit: the fields of `ModelSettings` (see there), used when ``settings`` is not
+        given.
     settings : ModelSettings, optional
-        What to fit; or give its fields as keywords (``outcome=``, ``terms=``, ``by=``...).
+        What to fit, as one object (the keyword fields above are then ignored).
     units : dict, optional
         Variable -> unit for the output (``CovariateTable.units``).
 
@@ -398,10 +404,10 @@ def fit(table, *, settings: ModelSettings | None = None, units: dict | None = No
 
     These are associations in observational data, not causes.
     """
-    s = settings or ModelSettings(**{k: (tuple(v) if k == "terms" else v)
-                                     for k, v in options.items()})
-    if settings is not None and options:
-        raise InputError("give either settings= or keyword options, not both")
+    s = settings or ModelSettings(outcome=outcome, terms=tuple(terms), by=by, subject=subject,
+                                  split=split, random_slope=random_slope, se=se,
+                                  hac_lags=hac_lags,
+                                  qualities=None if qualities is None else tuple(qualities))
     data, rhs = prepare(table, s)
     units = dict(units or {})
     formula = f"{s.outcome} ~ {' + '.join(rhs)}"
