@@ -99,8 +99,10 @@ def command(daily: Path, covariate_files, units_file, outcome, adjust, candidate
 
     DAILY is the daily table that `rrkit daily` writes (daily.csv or daily.parquet). Covariates
     are joined by subject and calendar date: a covariate dated D sits on the morning of D, and
-    its _lag1 term is the day before. Prints one plain-language line per term, writes the
-    tidy coefficients, diagnostics, the exact formula and settings, and two figures to OUTDIR.
+    its _lag1 term is the day before. The model is OUTCOME ~ the --adjust terms (without
+    them, the --candidates together); each candidate is also screened alone on top of --adjust.
+    Prints one plain-language line per term, writes the tidy coefficients, diagnostics, the
+    exact formula and settings, and two figures to OUTDIR.
     """
     from .. import covariates as cov
     from .. import model
