@@ -17,6 +17,8 @@ from .errors import InputError, QualityWarning, RrkitWarning
 # `import rrkit` and `rrkit --version` do not load scipy, pandas or the pipeline.
 _LAZY = {
     "windows": ("windows", None),
+    "covariates": ("covariates", None),
+    "model": ("model", None),
     "AgreementResult": ("agreement", "AgreementResult"),
     "DefinitionSearch": ("agreement", "DefinitionSearch"),
     "ReferenceDefinition": ("agreement", "ReferenceDefinition"),
@@ -131,6 +133,9 @@ __all__ = [
     "DaySelection",
     "daily_table",
     "run_daily",
+    # covariates and models of the daily table
+    "covariates",
+    "model",
     # agreement
     "AgreementResult",
     "DefinitionSearch",

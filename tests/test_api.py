@@ -19,6 +19,7 @@ PUBLIC = {
     "Alignment", "BeatPairs", "DeviceComparison", "align", "compare_devices", "pair_beats",
     # the settings tree of a daily run and the one window table
     "DaySelection", "QualityRules", "window_rows",
+    "covariates", "model",
 }
 
 

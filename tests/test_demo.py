@@ -203,3 +203,26 @@ def test_demo_lab_table_is_spreadsheet_safe(small_run, tmp_path):
     written = pd.read_csv(tmp_path / "out" / "lab" / "lab_segments.csv")
     assert set(written["subject"]) == {"'=cmd"}
     assert pd.api.types.is_float_dtype(written["rmssd_ms"])
+
+
+def test_demo_modelling_step_shows_within_between_and_pooled(full_run):
+    """The planted within-athlete sleep slope is recovered, the between slope and the naive
+    pooled slope are negative (rrkit/simulate/_squad_log.py plants them)."""
+    from rrkit.simulate import _squad_log
+
+    _rc, out = full_run
+    text = (out / "summary.txt").read_text()
+    assert "Modelling the season" in text
+    parts = pd.read_csv(out / "model" / "within_between_pooled.csv")
+    sleep = parts[parts["outcome"] == "ln_rmssd"].set_index("part")
+    assert sleep.loc["within", "ci_low"] <= _squad_log.SLEEP_WITHIN_LN_PER_H \
+        <= sleep.loc["within", "ci_high"]
+    assert sleep.loc["between", "ci_high"] < 0
+    assert sleep.loc["pooled", "estimate"] < 0  # the naive fit reads the wrong sign
+    load = parts[parts["outcome"] == "wellness_pts"].set_index("part")
+    truth = _squad_log.WELLNESS_PER_500AU / 500
+    assert load.loc["within", "ci_low"] <= truth <= load.loc["within", "ci_high"]
+    assert "wrong sign" in text
+    assert "not causes" in text
+    for png in ("coefficients.png", "partial_effect.png"):
+        assert_png(out / "model" / png)

@@ -32,8 +32,10 @@ RANK = {
     "_premature": 7,  # premature-beat cautions of a daily table
     "pairing": 7,      # simultaneous recordings: analysis and agreement on two recordings
     "io.store": 7,     # the HDF5 store keeps clean results and window metrics
+    "covariates": 7,   # daily covariates joined onto the daily table
     "batch": 8,
     "report": 8,       # the squad page reads a run's outputs and draws with plots
+    "model": 8,        # models of the (joined) daily table; figures from plots
     "plots": 7,        # figures draw results of the stages before; results offer .plot()
     "simulate": 9,     # simulations sit on top: the demo squad is built with the whole pipeline
     "cli": 10,
@@ -215,7 +217,7 @@ def test_each_stage_imports_on_its_own():
 def test_import_rrkit_is_light():
     code = (
         "import sys, rrkit\n"
-        "lazy = ('matplotlib', 'pyarrow', 'wfdb', 'pyedflib', 'pingouin')\n"
+        "lazy = ('matplotlib', 'pyarrow', 'wfdb', 'pyedflib', 'pingouin', 'statsmodels')\n"
         "heavy = [m for m in lazy if m in sys.modules]\n"
         "print(heavy)\n"
         "sys.exit(1 if heavy else 0)\n"

@@ -59,6 +59,43 @@ def test_reduced_copy_is_a_subset_of_the_full_squad(tmp_path):
     merged = load_s.merge(load_b, on=["date", "subject"], suffixes=("", "_big"))
     assert len(merged) == len(load_s) == 2 * 14
     assert (merged["load_au"] == merged["load_au_big"]).all()
+    # the daily log (sleep, body mass, wellness) too: same values for the days both cover
+    log_s = pd.read_csv(tmp_path / "small" / "daily_log.csv", keep_default_na=False, dtype=str)
+    log_b = pd.read_csv(tmp_path / "big" / "daily_log.csv", keep_default_na=False, dtype=str)
+    both = log_s.merge(log_b, on=["date", "subject"], suffixes=("", "_big"))
+    assert len(both) == len(log_s) == 2 * 14
+    for col in ("sleep_h", "body_mass_kg", "wellness_pts"):
+        assert (both[col] == both[f"{col}_big"]).all(), col
+
+
+def test_daily_log_plants_its_relations():
+    """Within each athlete, the true morning ln-RMSSD deviation regresses on the night's sleep
+    with the planted slope (exact over all 84 nights; the few unlogged nights move it a little,
+    hence the tolerance); the athletes with the higher baseline
+    ln-RMSSD sleep less (the between pattern runs the other way)."""
+    from rrkit.simulate import _squad_log
+
+    s = squad.SquadSettings(nights=False)
+    rows = _squad_log.log_rows(
+        seed=s.seed, athletes=story.ATHLETES, n_days=84, first_monday=s.first_monday,
+        ln_noise=[squad._day_noise(s, a) for a in range(8)],
+        loads_au=[np.array([float(r[-1]) for r in squad._load_rows(s, a)]) for a in range(8)])
+    log = pd.DataFrame(rows, columns=list(_squad_log.LOG_COLUMNS))
+    usual = []
+    for a, ath in enumerate(story.ATHLETES):
+        mine = log[log["subject"] == ath.subject].reset_index(drop=True)
+        ok = mine["sleep_h"] != ""
+        sleep = mine.loc[ok, "sleep_h"].astype(float).to_numpy()
+        true = (squad._day_noise(s, a) + np.array([story.day_state(ath, d)[0]
+                                                   for d in range(84)]))[ok.to_numpy()]
+        slope = np.polyfit(sleep - sleep.mean(), true, 1)[0]
+        assert abs(slope - _squad_log.SLEEP_WITHIN_LN_PER_H) < 0.025, ath.subject
+        usual.append(sleep.mean())
+    between = np.polyfit([a.ln_rmssd for a in story.ATHLETES], usual, 1)[0]
+    assert between < -1.0  # planted -1.5 h per ln unit, with invented offsets
+    well = log["wellness_pts"].replace("", np.nan).astype(float)
+    assert well.dropna().between(5, 25).all()
+    assert log["body_mass_kg"].replace("", np.nan).astype(float).min() > 60
 
 
 def test_story_in_the_truth():

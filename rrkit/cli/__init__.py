@@ -27,8 +27,8 @@ from ..errors import InputError
 __all__ = ["cli", "error_line", "main", "usage_line"]
 
 # subcommand name -> module under rrkit.cli (one module per command)
-_COMMANDS = ("info", "clean", "analyze", "daily", "agree", "pair", "ramp", "plot", "report",
-             "demo")
+_COMMANDS = ("info", "clean", "analyze", "daily", "agree", "model", "pair", "ramp", "plot",
+             "report", "demo")
 
 
 #: The first paragraph of each subcommand's help, so that ``rrkit --help`` lists the commands
@@ -44,6 +44,7 @@ _SUMMARIES = {
                "domains).",
     "daily": "One row per athlete per day from a folder of recordings, with baselines and flags.",
     "agree": "Agreement of a device's nightly values with values recomputed from the raw nights.",
+    "model": "Model a daily table: how covariates relate to next-morning ln-RMSSD and the rest.",
     "pair": "Align two simultaneous recordings of one heart (REFERENCE, e.g. an ECG, and DEVICE, "
             "e.g. a wrist PPG), pair their beats and measure the device against the reference: "
             "matched, missed and extra beats, paired-interval agreement, and the same windows' "

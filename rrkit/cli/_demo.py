@@ -123,10 +123,11 @@ def command(outdir: Path, data: Path | None, jobs: int | None, quiet: bool) -> i
 
     report = _report(out, load=load, meta=meta)
     prog.note(f"squad report {report}")
+    modelling = _modelling(folder, out, daily_run.table, note=prog.note)
 
     prog.step(6, "summary")
     text = _summary(daily_run, lab=lab, agree=agree, ectopy=ectopy, figures=figures, out=out,
-                    meta=meta, folder=folder, report=report, ramps=ramps)
+                    meta=meta, folder=folder, report=report, ramps=ramps, modelling=modelling)
     atomic_write_text(out / "summary.txt", text, fsync=False)
     click.echo(text)
     return 0
@@ -299,6 +300,53 @@ def _report(out: Path, *, load, meta) -> Path:
                         title="Demo squad report (invented athletes)")
 
 
+def _modelling(folder: Path, out: Path, table, *, note) -> str:
+    """Sleep and load against the mornings, within vs between athletes vs a naive pooled fit,
+    with what the simulation planted; writes model/ (tables, figures). Empty without the log."""
+    from .. import covariates as cov
+    from ..model import CAUTION, compare_pooled, plain_lines, write_outputs
+    from ..simulate import _squad_log as planted
+
+    paths = [folder / "training_load.csv", folder / "daily_log.csv"]
+    if not all(p.is_file() for p in paths):
+        return ""
+    tabs = [cov.read(p) for p in paths]
+    units = {**tabs[0].units, **tabs[1].units}
+    joined = cov.join(cov.join(table, tabs[0], terms=["load_au_lag1"]), tabs[1])
+    try:
+        sleep, sleep_lines, fit_sleep = compare_pooled(joined, term="sleep_h",
+                                                       adjust=("load_au_lag1",), units=units)
+        load, load_lines, _fit = compare_pooled(joined, term="load_au_lag1",
+                                                outcome="wellness_pts", adjust=("sleep_h",),
+                                                units=units)
+    except InputError as exc:  # a reduced squad too small for the squad model
+        note(f"modelling skipped: {exc}")
+        return f"\nModelling skipped: {exc}\n"
+
+    folder_out = out / "model"
+    write_outputs(fit_sleep, folder_out, partial_term="sleep_h_within",
+                  lines=sleep_lines + load_lines)
+    _write_csv(folder_out / "within_between_pooled.csv",
+               __import__("pandas").concat([sleep.assign(outcome="ln_rmssd"),
+                                            load.assign(outcome="wellness_pts")]))
+    note(f"modelling: within vs between athletes vs pooled, in {folder_out}")
+    half = planted.SLEEP_WITHIN_LN_PER_H / 2
+    lines = ["", "Modelling the season (rrkit model; the simulation planted the true relations):",
+             f"  The night's sleep and that morning's ln-RMSSD, {fit_sleep.formula}",
+             *(f"    {x}" for x in sleep_lines),
+             f"    planted: {half:+.3f} per 0.5 h within athletes; between athletes the ones "
+             "with higher ln-RMSSD sleep less.",
+             "  Previous day's load and the wellness score (5-25):",
+             *(f"    {x}" for x in load_lines[:1]),
+             f"    planted: {planted.WELLNESS_PER_500AU:+.2f} per 500 AU within athletes.",
+             "  The same load against ln-RMSSD (the mornings were simulated with training "
+             "phases but no day-to-day load term):",
+             *(f"    {x}" for x in plain_lines(fit_sleep, model="mixed")
+               if "previous day's load, within" in x),
+             f"  {CAUTION}"]
+    return "\n".join(lines) + "\n"
+
+
 # --------------------------------------------------------------------------------- summary
 def _breathing_remark(notes: str) -> str:
     """The lab line's short remark on the breathing note of its window."""
@@ -310,7 +358,7 @@ def _breathing_remark(notes: str) -> str:
 
 
 def _summary(run, *, lab, agree, ectopy, figures, out, meta, folder, report=None,
-             ramps=None) -> str:
+             ramps=None, modelling: str = "") -> str:
     from ..daily import flag_runs, run_since
 
     table = run.table
@@ -407,6 +455,8 @@ def _summary(run, *, lab, agree, ectopy, figures, out, meta, folder, report=None
                          "times larger")
     if ramps:
         lines += _ramp_summary(ramps, out).rstrip("\n").split("\n")
+    if modelling:
+        lines += modelling.rstrip("\n").split("\n")
     lines.append("")
     lines.append(f"Outputs in {out}:")
     for k in ("daily_csv", "store", "errors_csv", "provenance"):

@@ -20,6 +20,9 @@ What is written (paths relative to the output folder):
     (local ISO time of the first beat) and ``format``.
 ``training_load.csv``
     Per athlete per day: ``date, subject, sessions, minutes, session_rpe, load_au``.
+``daily_log.csv``
+    Per athlete per day: ``date, subject, sleep_h, body_mass_kg, wellness_pts`` (see
+    `rrkit.simulate._squad_log` for the relations planted in it).
 ``lab/<subject>_lab.csv`` and ``lab/<subject>_lab_events.csv``
     A lab protocol (supine, standing, paced breathing at 6 breaths/min) with its events table.
 ``nights/...``
@@ -50,6 +53,7 @@ from .._validation import check_int
 from ..errors import InputError
 from ..recording import Recording
 from . import _squad_files as files
+from . import _squad_log
 from . import _squad_story as story
 from ._series import RestingSeries, simulate_rr
 from ._squad_nights import TIME_ZONE
@@ -375,6 +379,10 @@ def generate_squad(outdir, *, settings: SquadSettings | None = None, progress=No
         _write(root, "training_load.csv",
                _csv_bytes(["date", "subject", "sessions", "minutes", "session_rpe", "load_au"],
                           sorted(load_rows, key=lambda r: (r[0], r[1])))),
+        _write(root, "daily_log.csv", _csv_bytes(*_squad_log.log_table(  # sleep, mass, wellness
+            s, ln_noise=[_day_noise(s, a) for a in range(s.n_athletes)],
+            loads_au=[np.array([float(r[-1]) for r in _load_rows(s, a)])
+                      for a in range(s.n_athletes)]))),
     ]
     lab = []
     for a in range(s.n_athletes):
