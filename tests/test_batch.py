@@ -237,7 +237,7 @@ def test_damaged_cache_entry_is_recomputed(tmp_path):
     _squad_folder(data, subjects=("A01",), n_days=3)
     out = tmp_path / "out"
     first = run_daily(data, out, executor=InlineExecutor())
-    entry = sorted((out / ".rrkit-cache").glob("*.rrc"))[0]
+    entry = sorted((out / ".rrkit-cache").glob("*.npz"))[0]
     entry.write_bytes(entry.read_bytes()[:100])
     again = run_daily(data, out, executor=InlineExecutor())
     assert (again.n_done, again.n_skipped) == (1, 2)
@@ -257,14 +257,14 @@ def test_killed_run_then_rerun_gives_same_table(tmp_path):
     deadline = time.monotonic() + 60
     try:
         while time.monotonic() < deadline and proc.poll() is None:
-            if cache.is_dir() and len(list(cache.glob("*.rrc"))) >= 10:
+            if cache.is_dir() and len(list(cache.glob("*.npz"))) >= 10:
                 break
             time.sleep(0.01)
         assert proc.poll() is None, "the run ended before it could be interrupted"
         os.killpg(proc.pid, signal.SIGKILL)  # the run and its worker process, by group id
     finally:
         proc.wait(timeout=30)
-    n_cached = len(list(cache.glob("*.rrc")))
+    n_cached = len(list(cache.glob("*.npz")))
     assert 10 <= n_cached < 120
     assert not (out / "daily.csv").exists()  # killed before the end: no output at all
     rerun = subprocess.run(cmd, capture_output=True, text=True, timeout=300)
@@ -530,3 +530,37 @@ def test_daily_usage_errors_name_the_option(tmp_path, capsys, option, value, sho
     assert shown in err
     for internal in ("_days", "band_sd", "first_date"):  # the Python names stay out of it
         assert internal not in err
+
+
+def test_cache_entries_are_npz_loaded_without_pickle(tmp_path):
+    import zipfile
+
+    data = tmp_path / "data"
+    _squad_folder(data, subjects=("A01",), n_days=3)
+    out = tmp_path / "out"
+    first = run_daily(data, out, executor=InlineExecutor())
+    entries = sorted((out / ".rrkit-cache").glob("*.npz"))
+    assert len(entries) == 3
+    with np.load(entries[0], allow_pickle=False) as z:  # a plain numpy archive
+        assert "meta" in z.files and "a_raw_rr_ms" in z.files
+    # one flipped byte inside an array member: the zip CRC-32 catches it
+    raw = bytearray(entries[0].read_bytes())
+    with zipfile.ZipFile(entries[0]) as zf:
+        info = zf.getinfo("a_raw_rr_ms.npy")
+    at = info.header_offset + 30 + len(info.filename) + len(info.extra) + 200
+    raw[at] ^= 0xFF
+    entries[0].write_bytes(bytes(raw))
+    # an entry holding a pickled object array is refused (never unpickled)
+    with zipfile.ZipFile(entries[1]) as zf:
+        members = {n: zf.read(n) for n in zf.namelist()}
+    import io as _io
+
+    buf = _io.BytesIO()
+    np.save(buf, np.array([{"x": 1}], dtype=object), allow_pickle=True)
+    members["a_origin.npy"] = buf.getvalue()
+    with zipfile.ZipFile(entries[1], "w") as zf:
+        for name, blob in members.items():
+            zf.writestr(name, blob)
+    again = run_daily(data, out, executor=InlineExecutor())
+    assert (again.n_done, again.n_skipped) == (2, 1)
+    pd.testing.assert_frame_equal(first.table, again.table)

@@ -33,8 +33,9 @@ __all__ = ["ARRAY_NAMES", "ResultCache", "process_and_cache", "process_file", "s
 ARRAY_NAMES = ("raw_beat_times_s", "raw_rr_ms", "raw_gaps", "label_codes", "changed",
                "corrected_beat_times_s", "corrected_rr_ms", "corrected_gaps", "origin")
 CACHE_DIR = ".rrkit-cache"
-_CACHE_FORMAT = 2
-_MAGIC = b"RRKITC01"
+_CACHE_FORMAT = 3
+_META = "meta"
+_ARRAY_PREFIX = "a_"
 
 
 def settings_hash(settings: DailySettings) -> str:
@@ -133,45 +134,38 @@ def process_and_cache(task: tuple[str, str, str], *, settings: DailySettings, ca
 def write_entry(folder: Path, digest: str, result: dict[str, Any]) -> None:
     """Write one cache entry atomically (see `ResultCache` for the format)."""
     arrays = result.get("arrays") if result.get("ok") else None
-    specs, blobs, at = [], [], 0
+    payload: dict[str, np.ndarray] = {}
     for name, arr in (arrays or {}).items():
         a = np.ascontiguousarray(arr)
         if a.dtype.kind not in "biufU":
             raise TypeError(f"cache: array {name!r} has dtype {a.dtype}, not a plain one")
-        specs.append({"name": name, "dtype": a.dtype.str, "shape": list(a.shape),
-                      "offset": at, "nbytes": a.nbytes})
-        blobs.append(a.tobytes())
-        at += a.nbytes
+        payload[_ARRAY_PREFIX + name] = a
     meta = {"format": _CACHE_FORMAT, "settings": digest, "sha256": result["sha256"],
-            "result": {k: v for k, v in result.items() if k != "arrays"}, "arrays": specs}
-    head = json.dumps(meta).encode("utf-8")
-    data = b"".join([_MAGIC, len(head).to_bytes(8, "little"), head, *blobs])
-    with atomic_path(entry_path(folder, digest, result["sha256"]), fsync=False) as tmp:
-        tmp.write_bytes(data)
+            "result": {k: v for k, v in result.items() if k != "arrays"},
+            "arrays": sorted(arrays or ())}
+    payload[_META] = np.frombuffer(json.dumps(meta).encode("utf-8"), dtype=np.uint8)
+    with atomic_path(entry_path(folder, digest, result["sha256"]), fsync=False) as tmp, \
+            open(tmp, "wb") as fh:
+        np.savez(fh, **payload)
 
 
 def _read_entry(path: Path) -> dict[str, Any]:
-    data = path.read_bytes()
-    if not data.startswith(_MAGIC):
-        raise ValueError("not an rrkit cache entry")
-    n = int.from_bytes(data[len(_MAGIC):len(_MAGIC) + 8], "little")
-    start = len(_MAGIC) + 8
-    meta = json.loads(data[start:start + n].decode("utf-8"))
-    body = memoryview(data)[start + n:]
-    arrays = {}
-    for spec in meta["arrays"]:
-        chunk = body[spec["offset"]:spec["offset"] + spec["nbytes"]]
-        if len(chunk) != spec["nbytes"]:
-            raise ValueError("truncated cache entry")
-        arrays[spec["name"]] = np.frombuffer(chunk, dtype=np.dtype(spec["dtype"])).reshape(
-            spec["shape"]).copy()
+    # numpy checks each member's CRC-32 as it reads it, so a damaged entry raises here
+    with open(path, "rb") as fh, np.load(fh, allow_pickle=False) as z:
+        meta = json.loads(z[_META].tobytes().decode("utf-8"))
+        arrays = {}
+        for key in z.files:
+            if key.startswith(_ARRAY_PREFIX):
+                arrays[key[len(_ARRAY_PREFIX):]] = z[key]
+    if sorted(arrays) != meta.get("arrays"):
+        raise ValueError("cache entry lacks arrays its header names")
     meta["arrays"] = arrays
     return meta
 
 
 def entry_path(folder: Path, digest: str, sha: str) -> Path:
-    """``<folder>/<input sha256>-<settings hash, 16 hex>.rrc`` (hex digits only)."""
-    return folder / f"{sha}-{digest[:16]}.rrc"
+    """``<folder>/<input sha256>-<settings hash, 16 hex>.npz`` (hex digits only)."""
+    return folder / f"{sha}-{digest[:16]}.npz"
 
 
 def broken_result(task, exc: BaseException) -> dict[str, Any]:
@@ -183,11 +177,12 @@ def broken_result(task, exc: BaseException) -> dict[str, Any]:
 class ResultCache:
     """Per-input results on disk, keyed by input SHA-256 and settings hash.
 
-    Each entry is one ``.rrc`` file written atomically: an 8-byte tag, the length of a JSON
-    header (8 bytes, little-endian), the header (scalar fields of the result, and name, dtype,
-    shape and byte range of each array), then the raw array bytes. Nothing is unpickled, so an
-    entry cannot run code when loaded. A missing, unreadable or foreign entry counts
-    as absent, so the worst a damaged cache can cause is a recomputation.
+    Each entry is one numpy ``.npz`` archive written atomically: the member ``meta`` holds the
+    UTF-8 JSON of the result's scalar fields (with the cache format, settings hash and input
+    SHA-256), and one member ``a_<name>`` per array. Entries are loaded with
+    ``numpy.load(allow_pickle=False)``, so an entry cannot run code when loaded, and the zip
+    format's CRC-32 of every member catches a damaged file. A missing, unreadable or foreign
+    entry counts as absent, so the worst a damaged cache can cause is a recomputation.
     """
 
     def __init__(self, outdir: str | os.PathLike[str], settings_digest: str) -> None:
