@@ -564,3 +564,57 @@ def test_cache_entries_are_npz_loaded_without_pickle(tmp_path):
     again = run_daily(data, out, executor=InlineExecutor())
     assert (again.n_done, again.n_skipped) == (2, 1)
     pd.testing.assert_frame_equal(first.table, again.table)
+
+
+# ----------------------------------------------------------------------------- folder lock
+_HOLD = ("import sys, time; from rrkit.batch._lock import FolderLock; "
+         "lk = FolderLock(sys.argv[1]); lk.acquire(); print('held', flush=True); time.sleep(60)")
+
+
+def test_a_second_run_on_the_same_folder_stops_naming_the_holder(tmp_path, capsys, caplog):
+    import logging
+
+    data = tmp_path / "data"
+    _squad_folder(data, subjects=("A01",), n_days=2)
+    out = tmp_path / "out"
+    out.mkdir()
+    holder = subprocess.Popen([sys.executable, "-c", _HOLD, str(out)], stdout=subprocess.PIPE,
+                              text=True)
+    try:
+        assert holder.stdout.readline().strip() == "held"
+        rc = main(["daily", str(data), "-o", str(out), "--jobs", "1"])
+        err = capsys.readouterr().err
+        assert rc == 2
+        assert f"in use by another rrkit run (process {holder.pid}" in err
+        assert len(err.strip().splitlines()) == 1
+        assert not (out / "daily.csv").exists()
+        t0 = time.monotonic()
+        rc = main(["daily", str(data), "-o", str(out), "--jobs", "1", "--wait", "0.5"])
+        assert rc == 2 and time.monotonic() - t0 >= 0.5  # waited, then stopped
+        capsys.readouterr()
+    finally:
+        holder.kill()  # a killed holder: the kernel releases its lock, its file stays
+        holder.wait()
+        holder.stdout.close()
+    assert str(holder.pid) in (out / ".rrkit-lock").read_text()
+    with caplog.at_level(logging.INFO, logger="rrkit"):
+        rc = main(["daily", str(data), "-o", str(out), "--jobs", "1"])
+    assert rc == 0
+    assert f"left by an ended run (process {holder.pid}" in caplog.text
+    assert (out / ".rrkit-lock").read_text() == ""  # released cleanly at the end
+
+
+def test_waiting_run_goes_on_when_the_holder_finishes(tmp_path):
+    from rrkit.batch._lock import FolderLock
+
+    data = tmp_path / "data"
+    _squad_folder(data, subjects=("A01",), n_days=2)
+    out = tmp_path / "out"
+    out.mkdir()
+    lock = FolderLock(out)
+    lock.acquire()
+    import threading
+
+    threading.Timer(0.5, lock.release).start()
+    summary = run_daily(data, out, executor=InlineExecutor(), wait_s=20)
+    assert summary.n_done == 2

@@ -8,12 +8,14 @@ Public entry point: `run_daily` (also the ``rrkit daily`` command). The parts:
 * resume: per-input results cached by SHA-256 and settings hash in the output folder;
 * outputs, all written atomically: daily table (CSV, Parquet), weekly and per-recording
   tables, ``errors.csv``, the HDF5 store and the provenance;
+* one run at a time per output folder (`FolderLock`, an operating-system file lock);
 * untrusted strings (`safe_name`, `neutralize_cells`).
 """
 
 from .._atomic import atomic_path, atomic_write_bytes, atomic_write_text
 from ._discover import DEFAULT_EXTENSIONS, Candidate, Discovery, discover, read_manifest
 from ._executor import Executor, InlineExecutor, LocalExecutor, default_jobs
+from ._lock import FolderLock
 from ._pattern import DEFAULT_PATTERN, FilenamePattern
 from ._run import OUTPUT_NAMES, RunSummary, run_daily
 from ._safe import neutralize_cell, neutralize_cells, safe_name
@@ -26,6 +28,7 @@ __all__ = [
     "Discovery",
     "Executor",
     "FilenamePattern",
+    "FolderLock",
     "InlineExecutor",
     "LocalExecutor",
     "RunSummary",

@@ -21,6 +21,7 @@ from ..daily import DAILY_METRICS, DailySettings, daily_table, weekly_summary
 from ..errors import InputError
 from ._discover import Candidate, assign, discover, sha256_file
 from ._executor import Executor, LocalExecutor
+from ._lock import FolderLock
 from ._pattern import FilenamePattern
 from ._safe import neutralize_cells
 from ._work import CACHE_DIR, ResultCache, broken_result, process_and_cache, settings_hash
@@ -106,6 +107,7 @@ def run_daily(
     first_date: dt.date | str | None = None,
     last_date: dt.date | str | None = None,
     command: list[str] | None = None,
+    wait_s: float = 0.0,
 ) -> RunSummary:
     """Process a folder of recordings into a daily table and write every output atomically.
 
@@ -134,6 +136,9 @@ def run_daily(
         Span of the daily table (default: the dates found).
     command : list of str, optional
         The command line, recorded in the provenance.
+    wait_s : float
+        How long to wait when another run holds the output folder (default 0: stop at once
+        with an `InputError` naming that run's process); see `rrkit.batch.FolderLock`.
 
     Returns
     -------
@@ -146,12 +151,21 @@ def run_daily(
     SHA-256 and the hash of the per-file settings are unchanged, so an interrupted run resumes
     where it stopped and an unchanged re-run recomputes nothing; the table is the same.
     """
-    import pandas as pd
 
-    s = settings or DailySettings()
-    root = Path(root)
     out = Path(outdir)
     out.mkdir(parents=True, exist_ok=True)
+    with FolderLock(out, wait_s=wait_s):
+        return _run_locked(Path(root), out, manifest=manifest, pattern=pattern,
+                           settings=settings or DailySettings(), jobs=jobs, executor=executor,
+                           progress=progress, first_date=first_date, last_date=last_date,
+                           command=command)
+
+
+def _run_locked(root: Path, out: Path, *, manifest, pattern, settings: DailySettings, jobs,
+                executor, progress, first_date, last_date, command) -> RunSummary:
+    import pandas as pd
+
+    s = settings
     n_stale = remove_stale_temporaries(out) + remove_stale_temporaries(out / CACHE_DIR)
     if n_stale:
         log.info("removed %d temporary files left by an interrupted run", n_stale)

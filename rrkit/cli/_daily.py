@@ -168,11 +168,14 @@ def _command_line() -> list[str]:
 @click.option("--to", "last_date", help="Last date of the table (YYYY-MM-DD).")
 @click.option("--jobs", type=int, default=None,
               help="Worker processes (default: all cores).")
+@click.option("--wait", "wait_s", type=float, default=0.0, show_default=True, metavar="SECONDS",
+              help="When another run is writing the same output folder, wait up to this long "
+                   "for it to finish instead of stopping at once.")
 @click.option("--progress/--no-progress", default=None,
               help="Progress bar (default: on a terminal for runs of more than 20 files).")
 def command(folder, outdir, manifest, pattern, window, tz, wake, pick, clean_method,
             baseline_days, baseline_min, min_days, band_sd, first_date, last_date, jobs,
-            progress) -> int:
+            wait_s, progress) -> int:
     """One row per athlete per day from a folder of recordings, with baselines and flags.
 
     Finds the recordings under FOLDER (recursively), places each on a subject and a local
@@ -199,7 +202,7 @@ def command(folder, outdir, manifest, pattern, window, tz, wake, pick, clean_met
         summary = run_daily(folder, outdir, manifest=manifest, pattern=pattern,
                             settings=settings, jobs=jobs, progress=progress,
                             first_date=first_date, last_date=last_date,
-                            command=_command_line())
+                            command=_command_line(), wait_s=wait_s)
     table = summary.table
     if summary.n_files == 0:
         click.echo(f"no recordings found under {folder} (files ending in .txt, .csv, .tsv, "
