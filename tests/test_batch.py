@@ -618,3 +618,97 @@ def test_waiting_run_goes_on_when_the_holder_finishes(tmp_path):
     threading.Timer(0.5, lock.release).start()
     summary = run_daily(data, out, executor=InlineExecutor(), wait_s=20)
     assert summary.n_done == 2
+
+
+# ----------------------------------------------------------------------------- special files
+@pytest.mark.skipif(not hasattr(os, "mkfifo"), reason="named pipes need POSIX")
+def test_special_files_are_listed_and_never_hang_the_run(tmp_path):
+    import socket
+
+    data = tmp_path / "data"
+    good = _squad_folder(data, subjects=("A01",), n_days=3)
+    os.mkfifo(data / "A01" / "A01_2026-03-09_0700.txt")  # nobody ever writes into it
+    sock_path = data / "A01" / "A01_2026-03-10_0700.txt"
+    sock = socket.socket(socket.AF_UNIX)
+    try:
+        sock.bind(str(sock_path))
+        os.symlink("/dev/zero", data / "A01" / "A01_2026-03-11_0700.txt")  # a device
+        summary = run_daily(data, tmp_path / "out", jobs=2)
+    finally:
+        sock.close()
+    errors = pd.read_csv(tmp_path / "out" / "errors.csv")
+    assert errors["path"].tolist() == ["A01/A01_2026-03-09_0700.txt",
+                                       "A01/A01_2026-03-10_0700.txt",
+                                       "A01/A01_2026-03-11_0700.txt"]
+    assert set(errors["error_type"]) == {"NotARegularFile"}
+    assert [m.split(",")[0] for m in errors["message"]] == [
+        "a named pipe (FIFO)", "a socket", "a character device"]
+    assert summary.n_done == len(good)
+
+
+def test_a_fifo_that_appears_after_discovery_is_refused_by_the_worker(tmp_path):
+    from rrkit.batch._work import process_file
+
+    if not hasattr(os, "mkfifo"):
+        pytest.skip("named pipes need POSIX")
+    fifo = tmp_path / "late.txt"
+    os.mkfifo(fifo)
+    res = process_file((str(fifo), "late.txt", "0" * 64), settings=DailySettings(),
+                       time_limit_s=5)
+    assert (res["ok"], res["error_type"]) == (False, "NotARegularFile")
+
+
+def _slow_measure(path, settings, out):
+    while True:  # a pathological file: the work never ends
+        sum(range(1000))
+
+
+@pytest.mark.parametrize("in_thread", [False, True])
+def test_per_file_time_limit_stops_a_file_and_says_so(tmp_path, monkeypatch, in_thread):
+    import threading
+
+    from rrkit.batch import _work
+
+    monkeypatch.setattr(_work, "_measure", _slow_measure)
+    task = (str(tmp_path / "x.txt"), "x.txt", "0" * 64)
+    got = {}
+
+    def run():
+        got["res"] = _work.process_file(task, settings=DailySettings(), time_limit_s=0.3)
+
+    t0 = time.monotonic()
+    if in_thread:  # as in a Dask worker, whose tasks run in threads
+        th = threading.Thread(target=run)
+        th.start()
+        th.join(10)
+        assert not th.is_alive()
+    else:
+        run()
+    assert time.monotonic() - t0 < 5
+    res = got["res"]
+    assert (res["ok"], res["error_type"]) == (False, "TimeLimitExceeded")
+    assert "per-file time limit" in res["message"] and "0.3 s" in res["message"]
+
+
+def test_time_limit_rows_reach_errors_csv_and_are_not_cached(tmp_path, monkeypatch):
+    from rrkit.batch import _work
+
+    data = tmp_path / "data"
+    _squad_folder(data, subjects=("A01",), n_days=3)
+    real = _work._measure
+
+    def sometimes_slow(path, settings, out):
+        if path.endswith("03-03_0710.txt"):
+            _slow_measure(path, settings, out)
+        real(path, settings, out)
+
+    monkeypatch.setattr(_work, "_measure", sometimes_slow)
+    out = tmp_path / "out"
+    summary = run_daily(data, out, executor=InlineExecutor(), time_limit_s=0.5)
+    assert summary.n_done == 2 and summary.n_failed == 1
+    errors = pd.read_csv(out / "errors.csv")
+    assert errors["error_type"].tolist() == ["TimeLimitExceeded"]
+    assert len(list((out / ".rrkit-cache").glob("*.npz"))) == 2  # the stopped file: not cached
+    monkeypatch.setattr(_work, "_measure", real)
+    again = run_daily(data, out, executor=InlineExecutor(), time_limit_s=0.5)
+    assert (again.n_done, again.n_skipped, again.n_failed) == (1, 2, 0)

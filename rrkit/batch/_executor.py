@@ -11,15 +11,22 @@ The interface is deliberately small so that a distributed engine can implement i
 ``close()``
     Release the workers (executors are also context managers).
 
+Optional: ``start()`` starts the workers early (the caller goes on discovering files while they
+start), and ``lost``, a dict item -> number of worker deaths while the item was in flight (the
+retried items, recorded in the run's provenance).
+
 `LocalExecutor` runs on a `concurrent.futures.ProcessPoolExecutor`, submitting items in chunks
 so that the cost of sending a task is paid once per chunk, not once per file.
 `InlineExecutor` runs in the calling process (debugging, tiny jobs).
+`rrkit.batch.DaskExecutor` runs on a Dask distributed cluster (optional extra ``rrkit[dask]``).
 """
 
 from __future__ import annotations
 
 import gc
+import itertools
 import os
+from collections import deque
 from collections.abc import Callable, Iterable, Iterator
 from concurrent.futures import FIRST_COMPLETED, CancelledError, ProcessPoolExecutor, wait
 from concurrent.futures.process import BrokenProcessPool
@@ -96,74 +103,101 @@ class LocalExecutor:
         Modules each worker imports when it starts.
     on_broken : callable, optional
         ``on_broken(item, exc) -> result`` gives the result for an item whose worker process
-        died (for example killed by the system); default re-raises.
+        died every time it was tried (for example killed by the system); default re-raises.
+    max_losses : int
+        How many times an item may take its worker process down, running alone, before
+        ``on_broken`` gives its result (default 2).
+
+    Attributes
+    ----------
+    lost : dict
+        Item -> how many times a worker process died while the item was in flight (the items
+        that were retried); kept for the whole life of the executor.
 
     Notes
     -----
     Chunks are submitted a few at a time per worker (``2 * jobs`` in flight), so memory stays
-    bounded on long runs and results stream back as they complete.
+    bounded on long runs and results stream back as they complete. When a worker process dies,
+    the whole pool is replaced (that is how `concurrent.futures` reports it) and every item
+    that was in flight becomes a suspect: suspects are run one at a time, each alone in the
+    pool, so a death is blamed on the one item that caused it; the others succeed on their
+    solo run and nothing is lost.
     """
 
     def __init__(self, jobs: int | None = None, *, preload: tuple[str, ...] = (),
-                 on_broken: Callable[[Any, BaseException], Any] | None = None) -> None:
+                 on_broken: Callable[[Any, BaseException], Any] | None = None,
+                 max_losses: int = 2) -> None:
         self.n_workers = default_jobs() if jobs is None else check_int("jobs", jobs, low=1)
         self._preload = tuple(preload)
         self._on_broken = on_broken
+        self.max_losses = check_int("max_losses", max_losses, low=1)
         self._pool: ProcessPoolExecutor | None = None
+        self.lost: dict[Any, int] = {}
 
     def _ensure(self) -> ProcessPoolExecutor:
         if self._pool is None:
             self._pool = ProcessPoolExecutor(max_workers=self.n_workers, initializer=_warm_up,
                                              initargs=(self._preload,))
+            # worker processes start at the first submit; objects that exist now move to the
+            # permanent generation first, so the workers' garbage collector never walks (and
+            # copies) the parent's heap (gc.freeze, Python >= 3.7)
+            gc.freeze()
+            try:
+                self._pool.submit(int)  # starts every worker (and its imports) now
+            finally:
+                gc.unfreeze()
         return self._pool
+
+    def start(self) -> None:
+        """Start the worker processes now (they import `preload` while the caller works on)."""
+        self._ensure()
 
     def imap_unordered(self, fn, items, *, chunksize: int = 1):
         chunksize = check_int("chunksize", chunksize, low=1)
         it = iter(items)
         pending: dict = {}
+        suspects: deque = deque()
+        solo_losses: dict[Any, int] = {}
 
-        def submit_next() -> bool:
-            chunk = []
-            for item in it:
-                chunk.append(item)
-                if len(chunk) >= chunksize:
-                    break
-            if not chunk:
-                return False
-            fresh = self._pool is None
+        def submit(chunk, solo=False) -> None:
             pool = self._ensure()
-            if fresh:
-                # worker processes start at the first submit; objects that exist now move to
-                # the permanent generation first, so the workers' garbage collector never walks
-                # (and copies) the parent's heap (gc.freeze, Python >= 3.7)
-                gc.freeze()
-                try:
-                    fut = pool.submit(_run_chunk, fn, chunk)
-                finally:
-                    gc.unfreeze()
-            else:
-                fut = pool.submit(_run_chunk, fn, chunk)
-            pending[fut] = (chunk, pool)
-            return True
+            pending[pool.submit(_run_chunk, fn, chunk)] = (chunk, pool, solo)
 
-        for _ in range(2 * self.n_workers):
-            if not submit_next():
-                break
+        def fill() -> None:
+            if suspects:  # one suspect at a time, alone in the pool
+                if not pending:
+                    submit([suspects.popleft()], solo=True)
+                return
+            while len(pending) < 2 * self.n_workers:
+                chunk = list(itertools.islice(it, chunksize))
+                if not chunk:
+                    return
+                submit(chunk)
+
+        fill()
         while pending:
             done, _ = wait(pending, return_when=FIRST_COMPLETED)
             for fut in done:
-                chunk, pool = pending.pop(fut)
+                chunk, pool, solo = pending.pop(fut)
                 try:
                     results = fut.result()
                 except (BrokenProcessPool, CancelledError) as exc:
                     if self._on_broken is None:
                         raise
-                    results = [self._on_broken(item, exc) for item in chunk]
                     if pool is self._pool:  # replace the broken pool once
                         self._pool = None
                         pool.shutdown(wait=False, cancel_futures=True)
+                    results = []
+                    for item in chunk:
+                        self.lost[item] = self.lost.get(item, 0) + 1
+                        if solo:
+                            solo_losses[item] = solo_losses.get(item, 0) + 1
+                        if solo_losses.get(item, 0) >= self.max_losses:
+                            results.append(self._on_broken(item, exc))
+                        else:
+                            suspects.append(item)
                 yield from results
-                submit_next()
+            fill()
 
     def close(self) -> None:
         if self._pool is not None:

@@ -6,9 +6,10 @@ arrays. Any exception becomes a result with ``ok=False``, the error type and a o
 message; warnings are recorded as notes (so a warnings-as-errors setting in the parent cannot
 turn a usable file into a failed one).
 
-The parent keeps one cache entry per input in ``<outdir>/.rrkit-cache/``, named by the input's
-SHA-256 and the hash of the per-file settings, written atomically. A re-run loads the entry
-instead of recomputing when both hashes are unchanged.
+The client (the process that runs `rrkit.batch.run_daily`) keeps one cache entry per input in
+``<outdir>/.rrkit-cache/``, named by the input's SHA-256 and the hash of the per-file settings,
+written atomically as each result arrives (workers never write into the output folder). A
+re-run loads the entry instead of recomputing when both hashes are unchanged.
 """
 
 from __future__ import annotations
@@ -16,8 +17,9 @@ from __future__ import annotations
 import contextlib
 import hashlib
 import json
-import logging
 import os
+import signal
+import threading
 import warnings
 from pathlib import Path
 from typing import Any
@@ -27,7 +29,8 @@ import numpy as np
 from .._atomic import atomic_path
 from ..daily import DailySettings, _plain, measure_recording
 
-__all__ = ["ARRAY_NAMES", "ResultCache", "process_and_cache", "process_file", "settings_hash"]
+__all__ = ["ARRAY_NAMES", "TIME_LIMIT", "TRANSIENT_ERRORS", "WORKER_DIED", "ResultCache",
+           "process_file", "settings_hash", "time_limit"]
 
 #: Arrays a successful result carries (for the HDF5 store).
 ARRAY_NAMES = ("raw_beat_times_s", "raw_rr_ms", "raw_gaps", "label_codes", "changed",
@@ -63,13 +66,86 @@ def label_codes(labels) -> np.ndarray:
     return codes
 
 
-def process_file(task: tuple[str, str, str], *, settings: DailySettings) -> dict[str, Any]:
+class FileTimeLimit(BaseException):
+    """Raised inside the per-file work when it passes the per-file time limit.
+
+    A `BaseException`, so that no ``except Exception`` inside a reader can swallow it.
+    """
+
+
+#: ``error_type`` of a file stopped by the per-file time limit (never cached: a re-run with a
+#: longer limit tries it again)
+TIME_LIMIT = "TimeLimitExceeded"
+#: ``error_type`` of a file whose worker process died (never cached)
+WORKER_DIED = "WorkerDied"
+#: results never cached
+TRANSIENT_ERRORS = (TIME_LIMIT, WORKER_DIED)
+#: a test-only hook: a worker whose file's relative path contains this text ends its own
+#: process at once (simulating a file that kills its worker every time)
+CRASH_HOOK_ENV = "RRKIT_TEST_CRASH_ON"
+
+
+@contextlib.contextmanager
+def time_limit(seconds: float | None):
+    """Raise `FileTimeLimit` in this thread when the block runs longer than ``seconds``.
+
+    In a process's main thread (pool workers) a real-time interval timer (``SIGALRM``) is
+    used, which also interrupts a blocking system call; in other threads (Dask workers run
+    tasks in threads) a timer thread raises the exception asynchronously in the working
+    thread, which takes effect at its next Python instruction. None or 0: no limit.
+    """
+    if not seconds:
+        yield
+        return
+    if threading.current_thread() is threading.main_thread() and hasattr(signal, "setitimer"):
+        def on_alarm(signum, frame):
+            raise FileTimeLimit
+
+        old = signal.signal(signal.SIGALRM, on_alarm)
+        signal.setitimer(signal.ITIMER_REAL, float(seconds))
+        try:
+            yield
+        finally:
+            signal.setitimer(signal.ITIMER_REAL, 0)
+            signal.signal(signal.SIGALRM, old)
+        return
+    import ctypes
+
+    tid = threading.get_ident()
+    gate = threading.Lock()
+    state = {"done": False, "fired": False}
+
+    def fire():
+        with gate:
+            if not state["done"]:
+                state["fired"] = True
+                ctypes.pythonapi.PyThreadState_SetAsyncExc(ctypes.c_ulong(tid),
+                                                           ctypes.py_object(FileTimeLimit))
+
+    timer = threading.Timer(float(seconds), fire)
+    timer.daemon = True
+    timer.start()
+    try:
+        yield
+    finally:
+        with gate:
+            state["done"] = True
+            timer.cancel()
+            if state["fired"]:  # an exception not yet delivered must not escape later
+                ctypes.pythonapi.PyThreadState_SetAsyncExc(ctypes.c_ulong(tid), None)
+
+
+def process_file(task: tuple[str, str, str], *, settings: DailySettings,
+                 time_limit_s: float | None = None) -> dict[str, Any]:
     """Read, clean, window and measure one file; never raises for a bad file.
 
     Parameters
     ----------
     task : (path, relpath, sha256)
     settings : DailySettings
+    time_limit_s : float, optional
+        Per-file time limit in seconds (None: none); a file that takes longer gets the
+        ``error_type`` `TIME_LIMIT`.
 
     Returns
     -------
@@ -80,55 +156,66 @@ def process_file(task: tuple[str, str, str], *, settings: DailySettings) -> dict
     """
     path, relpath, sha = task
     out: dict[str, Any] = {"relpath": relpath, "sha256": sha}
+    hook = os.environ.get(CRASH_HOOK_ENV)
+    if hook and hook in relpath:
+        os._exit(70)
     try:
-        from ..io import read
-
-        with warnings.catch_warnings(record=True) as caught:
-            warnings.simplefilter("always")
-            rec = read(path, kind=settings.kind, unit=settings.unit)
-            if rec.n_intervals == 0:
-                raise ValueError("the file holds no intervals")
-            rows, cr = measure_recording(rec, settings=settings)
-        notes = [f"{w.category.__name__}: {_one_line(w.message)}" for w in caught]
-        out.update(
-            ok=True,
-            file_subject=rec.subject,
-            file_start=None if rec.start is None else rec.start.isoformat(),
-            read_info=_plain(rec.info.to_dict()),
-            clean_summary=_plain(cr.summary.to_dict()),
-            rows=rows,
-            warnings=notes,
-            arrays={
-                "raw_beat_times_s": np.asarray(rec.beat_times_s),
-                "raw_rr_ms": np.asarray(rec.rr_ms),
-                "raw_gaps": np.asarray(rec.gaps),
-                "label_codes": label_codes(cr.labels),
-                "changed": np.asarray(cr.changed, dtype=bool),
-                "corrected_beat_times_s": np.asarray(cr.recording.beat_times_s),
-                "corrected_rr_ms": np.asarray(cr.recording.rr_ms),
-                "corrected_gaps": np.asarray(cr.recording.gaps),
-                "origin": np.asarray(cr.origin, dtype=np.int64),
-            },
-        )
+        with time_limit(time_limit_s):
+            _measure(path, settings, out)
+    except FileTimeLimit:
+        out.clear()
+        out.update(relpath=relpath, sha256=sha, ok=False, error_type=TIME_LIMIT,
+                   message=f"stopped after {time_limit_s:g} s: reading and measuring this file "
+                           "took longer than the per-file time limit (rrkit daily --time-limit)")
     except Exception as exc:  # one bad file must never stop the run: report it instead
-        out.update(ok=False, error_type=type(exc).__name__, message=_one_line(str(exc)) or
-                   type(exc).__name__)
+        out.clear()
+        out.update(relpath=relpath, sha256=sha, ok=False, error_type=_error_type(exc),
+                   message=_one_line(str(exc)) or type(exc).__name__)
     return out
 
 
-def process_and_cache(task: tuple[str, str, str], *, settings: DailySettings, cache_folder: str,
-                      digest: str) -> dict[str, Any]:
-    """`process_file`, then store the result in the resume cache (in the worker, in parallel).
+def _error_type(exc: BaseException) -> str:
+    from ._discover import NOT_REGULAR
 
-    A failure to write the cache entry is not fatal: the result is still returned (and the
-    file is simply recomputed next time).
-    """
-    result = process_file(task, settings=settings)
-    try:
-        write_entry(Path(cache_folder), digest, result)
-    except Exception as exc:  # a cache that cannot be written only costs a recomputation
-        logging.getLogger("rrkit").warning("resume cache not written for %s: %s", task[1], exc)
-    return result
+    if isinstance(exc, OSError) and "not a regular file" in str(exc):
+        return NOT_REGULAR
+    return type(exc).__name__
+
+
+def _measure(path: str, settings: DailySettings, out: dict[str, Any]) -> None:
+    from ..io import read
+    from ._discover import not_regular_message, special_kind
+
+    kind = special_kind(os.stat(path).st_mode)
+    if kind is not None:  # checked again here: the file may have changed since discovery
+        raise OSError(not_regular_message(kind))
+    with warnings.catch_warnings(record=True) as caught:
+        warnings.simplefilter("always")
+        rec = read(path, kind=settings.kind, unit=settings.unit)
+        if rec.n_intervals == 0:
+            raise ValueError("the file holds no intervals")
+        rows, cr = measure_recording(rec, settings=settings)
+    notes = [f"{w.category.__name__}: {_one_line(w.message)}" for w in caught]
+    out.update(
+        ok=True,
+        file_subject=rec.subject,
+        file_start=None if rec.start is None else rec.start.isoformat(),
+        read_info=_plain(rec.info.to_dict()),
+        clean_summary=_plain(cr.summary.to_dict()),
+        rows=rows,
+        warnings=notes,
+        arrays={
+            "raw_beat_times_s": np.asarray(rec.beat_times_s),
+            "raw_rr_ms": np.asarray(rec.rr_ms),
+            "raw_gaps": np.asarray(rec.gaps),
+            "label_codes": label_codes(cr.labels),
+            "changed": np.asarray(cr.changed, dtype=bool),
+            "corrected_beat_times_s": np.asarray(cr.recording.beat_times_s),
+            "corrected_rr_ms": np.asarray(cr.recording.rr_ms),
+            "corrected_gaps": np.asarray(cr.recording.gaps),
+            "origin": np.asarray(cr.origin, dtype=np.int64),
+        },
+    )
 
 
 def write_entry(folder: Path, digest: str, result: dict[str, Any]) -> None:
@@ -169,9 +256,10 @@ def entry_path(folder: Path, digest: str, sha: str) -> Path:
 
 
 def broken_result(task, exc: BaseException) -> dict[str, Any]:
-    """The result for a file whose worker process died."""
-    return {"relpath": task[1], "sha256": task[2], "ok": False, "error_type": "WorkerDied",
-            "message": _one_line(f"the worker process stopped while reading this file: {exc}")}
+    """The result for a file whose worker process died every time it was tried."""
+    return {"relpath": task[1], "sha256": task[2], "ok": False, "error_type": WORKER_DIED,
+            "message": _one_line("the worker process died every time it read this file (tried "
+                                 f"alone, on fresh workers): {exc}")}
 
 
 class ResultCache:

@@ -168,6 +168,10 @@ def _command_line() -> list[str]:
 @click.option("--to", "last_date", help="Last date of the table (YYYY-MM-DD).")
 @click.option("--jobs", type=int, default=None,
               help="Worker processes (default: all cores).")
+@click.option("--time-limit", "time_limit_s", type=float, default=300.0, show_default=True,
+              metavar="SECONDS",
+              help="Per-file time limit: a file that takes longer is stopped and listed in "
+                   "errors.csv (0: no limit).")
 @click.option("--wait", "wait_s", type=float, default=0.0, show_default=True, metavar="SECONDS",
               help="When another run is writing the same output folder, wait up to this long "
                    "for it to finish instead of stopping at once.")
@@ -175,7 +179,7 @@ def _command_line() -> list[str]:
               help="Progress bar (default: on a terminal for runs of more than 20 files).")
 def command(folder, outdir, manifest, pattern, window, tz, wake, pick, clean_method,
             baseline_days, baseline_min, min_days, band_sd, first_date, last_date, jobs,
-            wait_s, progress) -> int:
+            time_limit_s, wait_s, progress) -> int:
     """One row per athlete per day from a folder of recordings, with baselines and flags.
 
     Finds the recordings under FOLDER (recursively), places each on a subject and a local
@@ -193,6 +197,9 @@ def command(folder, outdir, manifest, pattern, window, tz, wake, pick, clean_met
     wake_start, wake_end = _wake(wake)
     if jobs is not None and jobs < 1:
         raise InputError(f"--jobs must be at least 1; got {jobs}")
+    if not time_limit_s >= 0:
+        raise InputError(f"--time-limit must be 0 (none) or a number of seconds; got "
+                         f"{time_limit_s}")
     with _as_options():
         baselines = BaselineSettings(rolling_min_days=min_days, baseline_days=baseline_days,
                                      baseline_min_days=baseline_min, band_sd=band_sd,
@@ -202,7 +209,8 @@ def command(folder, outdir, manifest, pattern, window, tz, wake, pick, clean_met
         summary = run_daily(folder, outdir, manifest=manifest, pattern=pattern,
                             settings=settings, jobs=jobs, progress=progress,
                             first_date=first_date, last_date=last_date,
-                            command=_command_line(), wait_s=wait_s)
+                            command=_command_line(), wait_s=wait_s,
+                            time_limit_s=time_limit_s or None)
     table = summary.table
     if summary.n_files == 0:
         click.echo(f"no recordings found under {folder} (files ending in .txt, .csv, .tsv, "
