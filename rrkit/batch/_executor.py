@@ -34,7 +34,7 @@ from typing import Any, Protocol, runtime_checkable
 
 from .._validation import check_int
 
-__all__ = ["Executor", "InlineExecutor", "LocalExecutor", "default_jobs"]
+__all__ = ["Executor", "InlineExecutor", "LocalExecutor", "default_jobs", "make_executor"]
 
 
 def default_jobs() -> int:
@@ -83,11 +83,16 @@ def _run_chunk(fn, chunk):
 def _warm_up(modules: tuple[str, ...]) -> None:
     # Ctrl-C is handled by the parent (it stops submitting and shuts the pool down cleanly);
     # workers ignore it instead of each printing a traceback
-    import importlib
     import signal
 
     signal.signal(signal.SIGINT, signal.SIG_IGN)
-    # import the heavy modules once per worker, not once per task
+    import_all(modules)
+
+
+def import_all(modules: tuple[str, ...]) -> None:
+    """Import the heavy modules once per worker, not once per task."""
+    import importlib
+
     for name in modules:
         importlib.import_module(name)
 
@@ -209,3 +214,26 @@ class LocalExecutor:
 
     def __exit__(self, *exc):
         self.close()
+
+
+def make_executor(jobs: int | None = None, cluster: str | None = None, *,
+                  preload: tuple[str, ...] = (),
+                  on_broken: Callable[[Any, BaseException], Any] | None = None) -> Executor:
+    """The executor a batch command asked for: a process pool, or a Dask cluster.
+
+    Parameters
+    ----------
+    jobs : int, optional
+        Worker processes (pool, or local Dask cluster); default all cores.
+    cluster : str, optional
+        None: a `LocalExecutor`. ``"local-dask"``: a `rrkit.batch.DaskExecutor` on a new
+        `distributed.LocalCluster` of ``jobs`` workers. ``tcp://host:port`` (or any address Dask
+        accepts): a `DaskExecutor` connected to that scheduler.
+    preload, on_broken
+        Passed to the executor.
+    """
+    if cluster is None:
+        return LocalExecutor(jobs, preload=preload, on_broken=on_broken)
+    from ._dask import DaskExecutor
+
+    return DaskExecutor(cluster, n_workers=jobs, preload=preload, on_broken=on_broken)

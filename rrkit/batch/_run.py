@@ -20,7 +20,7 @@ from .._version import __version__
 from ..daily import DAILY_METRICS, DailySettings, daily_table, weekly_summary
 from ..errors import InputError
 from ._discover import NOT_REGULAR, Candidate, assign, discover, sha256_file
-from ._executor import Executor, LocalExecutor
+from ._executor import Executor, make_executor
 from ._lock import FolderLock
 from ._pattern import FilenamePattern
 from ._safe import neutralize_cells
@@ -116,6 +116,7 @@ def run_daily(
     command: list[str] | None = None,
     wait_s: float = 0.0,
     time_limit_s: float | None = 300.0,
+    cluster: str | None = None,
 ) -> RunSummary:
     """Process a folder of recordings into a daily table and write every output atomically.
 
@@ -134,9 +135,11 @@ def run_daily(
         ``{subject}_{date}[_{time}]*`` when no manifest is given.
     settings : DailySettings, optional
     jobs : int, optional
-        Worker processes (default all cores). Ignored when ``executor`` is given.
+        Worker processes (default all cores); with ``cluster="local-dask"`` the workers of the
+        local Dask cluster. Ignored when ``executor`` is given.
     executor : Executor, optional
-        Where the per-file work runs (default a `LocalExecutor` with ``jobs`` workers).
+        Where the per-file work runs (default a `LocalExecutor` with ``jobs`` workers, or a
+        `DaskExecutor` when ``cluster`` is given).
     progress : bool, optional
         Show a progress bar (tqdm) on standard error; default: when it is a terminal and more
         than 20 files need work.
@@ -151,6 +154,10 @@ def run_daily(
         Per-file time limit in seconds (default 300; None or 0: none). A file that takes
         longer is stopped and listed in ``errors.csv`` as ``TimeLimitExceeded`` (not cached,
         so a re-run tries it again).
+    cluster : str, optional
+        A Dask scheduler address (``tcp://host:8786``) or ``"local-dask"`` (a
+        `distributed.LocalCluster` on this machine): the per-file work runs there (see
+        `rrkit.batch.DaskExecutor` and docs/cluster.md). The outputs are the same.
 
     Returns
     -------
@@ -170,12 +177,12 @@ def run_daily(
         return _run_locked(Path(root), out, manifest=manifest, pattern=pattern,
                            settings=settings or DailySettings(), jobs=jobs, executor=executor,
                            progress=progress, first_date=first_date, last_date=last_date,
-                           command=command, time_limit_s=time_limit_s)
+                           command=command, time_limit_s=time_limit_s, cluster=cluster)
 
 
 def _run_locked(root: Path, out: Path, *, manifest, pattern, settings: DailySettings, jobs,
                 executor, progress, first_date, last_date, command,
-                time_limit_s) -> RunSummary:
+                time_limit_s, cluster) -> RunSummary:
     import pandas as pd
 
     s = settings
@@ -183,8 +190,8 @@ def _run_locked(root: Path, out: Path, *, manifest, pattern, settings: DailySett
     if n_stale:
         log.info("removed %d temporary files left by an interrupted run", n_stale)
     own = executor is None
-    ex = executor if executor is not None else LocalExecutor(jobs, preload=_PRELOAD,
-                                                             on_broken=broken_result)
+    ex = executor if executor is not None else make_executor(
+        jobs, cluster, preload=_PRELOAD, on_broken=broken_result)
     results: dict[str, dict] = {}
     status: dict[str, str] = {}
     hashed: list[tuple[Candidate, str]] = []

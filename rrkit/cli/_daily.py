@@ -168,6 +168,10 @@ def _command_line() -> list[str]:
 @click.option("--to", "last_date", help="Last date of the table (YYYY-MM-DD).")
 @click.option("--jobs", type=int, default=None,
               help="Worker processes (default: all cores).")
+@click.option("--cluster", metavar="ADDRESS|local-dask", default=None,
+              help="Run the per-file work on a Dask cluster: a scheduler address "
+                   "(tcp://host:8786) or local-dask (a Dask cluster of --jobs workers on this "
+                   "machine). Needs the extra rrkit[dask]; see docs/cluster.md.")
 @click.option("--time-limit", "time_limit_s", type=float, default=300.0, show_default=True,
               metavar="SECONDS",
               help="Per-file time limit: a file that takes longer is stopped and listed in "
@@ -179,7 +183,7 @@ def _command_line() -> list[str]:
               help="Progress bar (default: on a terminal for runs of more than 20 files).")
 def command(folder, outdir, manifest, pattern, window, tz, wake, pick, clean_method,
             baseline_days, baseline_min, min_days, band_sd, first_date, last_date, jobs,
-            time_limit_s, wait_s, progress) -> int:
+            cluster, time_limit_s, wait_s, progress) -> int:
     """One row per athlete per day from a folder of recordings, with baselines and flags.
 
     Finds the recordings under FOLDER (recursively), places each on a subject and a local
@@ -210,7 +214,7 @@ def command(folder, outdir, manifest, pattern, window, tz, wake, pick, clean_met
                             settings=settings, jobs=jobs, progress=progress,
                             first_date=first_date, last_date=last_date,
                             command=_command_line(), wait_s=wait_s,
-                            time_limit_s=time_limit_s or None)
+                            time_limit_s=time_limit_s or None, cluster=cluster)
     table = summary.table
     if summary.n_files == 0:
         click.echo(f"no recordings found under {folder} (files ending in .txt, .csv, .tsv, "
