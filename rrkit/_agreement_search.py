@@ -12,6 +12,7 @@ compares each with the device's reported values (`rrkit.agreement`) and ranks th
 
 from __future__ import annotations
 
+import functools
 import logging
 import math
 from collections.abc import Mapping, Sequence
@@ -228,11 +229,11 @@ def _aggregate(d: ReferenceDefinition, values) -> tuple[float, int, str]:
     return float(np.mean([v[0] for v in kept])), len(kept), note
 
 
-def _reference_grid(recordings, definitions, cleanings, metric: str, *, progress=None):
+def _reference_grid(recordings, definitions, cleanings, metric: str, *, progress=None,
+                    executor=None):
     """Long table: one row per night x definition x cleaning."""
     import pandas as pd
 
-    from .clean import clean as run_clean
 
     domains = _domains_for(metric)
     nights = list(recordings)
@@ -251,38 +252,37 @@ def _reference_grid(recordings, definitions, cleanings, metric: str, *, progress
                              f"night ending on {key[1]} ({keys[key]}); expected one night per "
                              "subject and date")
         keys[key] = rec.source or f"nights[{i}]"
+    from .batch._map import map_files
+
+    one = functools.partial(_night_rows, definitions=definitions, cleanings=cleanings,
+                            metric=metric, domains=domains)
+    per_night = map_files(one, nights, executor=executor, desc="nights", unit="night",
+                          progress=progress)
+    return pd.DataFrame([row for rows in per_night for row in rows])
+
+
+def _night_rows(rec, *, definitions, cleanings, metric: str, domains) -> list[dict]:
+    """The reference rows of one night (every definition x cleaning); run by a batch worker."""
+    from .clean import clean as run_clean
+
     rows = []
-    bar = _progress_bar(len(nights) * len(cleanings), progress)
-    try:
-        for rec in nights:
-            subject, day = str(rec.subject), night_date(rec).isoformat()
-            for clabel, kwargs in cleanings:
-                cr = run_clean(rec, **kwargs)
-                cache: dict[str, list] = {}
-                for d in definitions:
-                    ckey = repr(d.windows)
-                    if ckey not in cache:
-                        cache[ckey] = _window_values(cr, d.windows, metric, domains)
-                    value, used, note = _aggregate(d, cache[ckey])
-                    rows.append({"subject": subject, "date": day, "source": rec.source,
-                                 "definition": d.name, "cleaning": clabel, metric: value,
-                                 "n_windows": used, "note": note})
-                bar.update(1)
-    finally:
-        bar.close()
-    return pd.DataFrame(rows)
-
-
-def _progress_bar(total: int, progress):
-    from tqdm.auto import tqdm
-
-    disable = None if progress is None else not progress  # None: only on a terminal
-    return tqdm(total=total, desc="nights x cleanings", unit="night", disable=disable,
-                leave=False)
+    subject, day = str(rec.subject), night_date(rec).isoformat()
+    for clabel, kwargs in cleanings:
+        cr = run_clean(rec, **kwargs)
+        cache: dict[str, list] = {}
+        for d in definitions:
+            ckey = repr(d.windows)
+            if ckey not in cache:
+                cache[ckey] = _window_values(cr, d.windows, metric, domains)
+            value, used, note = _aggregate(d, cache[ckey])
+            rows.append({"subject": subject, "date": day, "source": rec.source,
+                         "definition": d.name, "cleaning": clabel, metric: value,
+                         "n_windows": used, "note": note})
+    return rows
 
 
 def reference_table(nights: Sequence[Recording], *, definition="whole-night", clean="drr",
-                    metric: str = "rmssd_ms", progress: bool | None = None):
+                    metric: str = "rmssd_ms", progress: bool | None = None, executor=None):
     """Nightly reference values computed from raw nights with one definition and cleaning.
 
     Parameters
@@ -298,6 +298,8 @@ def reference_table(nights: Sequence[Recording], *, definition="whole-night", cl
         Key of `rrkit.metrics` (default ``"rmssd_ms"``).
     progress : bool, optional
         Progress bar; default only on a terminal.
+    executor : rrkit.batch.Executor, optional
+        Where the per-night computations run (default: in this process).
 
     Returns
     -------
@@ -308,7 +310,8 @@ def reference_table(nights: Sequence[Recording], *, definition="whole-night", cl
     """
     d = _definition(definition)
     c = _cleaning(clean)
-    return _reference_grid(nights, [d], [c], metric, progress=progress).reset_index(drop=True)
+    return _reference_grid(nights, [d], [c], metric, progress=progress,
+                           executor=executor).reset_index(drop=True)
 
 
 @dataclass(frozen=True, slots=True, eq=False)
@@ -434,6 +437,7 @@ def search_definitions(
     multiplier: float = 1.96,
     min_coverage: float = 0.8,
     progress: bool | None = None,
+    executor=None,
 ) -> DefinitionSearch:
     """Rank reference definitions x cleaning settings by their agreement with reported values.
 
@@ -459,6 +463,8 @@ def search_definitions(
         window outside short nights, are listed unranked). Default 0.8.
     progress : bool, optional
         Progress bar; default only on a terminal.
+    executor : rrkit.batch.Executor, optional
+        Where the per-night computations run (default: in this process).
 
     Returns
     -------
@@ -495,7 +501,7 @@ def search_definitions(
     cls = [_cleaning(c) for c in (cleanings if cleanings is not None else list(CLEANINGS))]
     if not defs or not cls:
         raise InputError("give at least one definition and one cleaning")
-    grid = _reference_grid(nights, defs, cls, metric, progress=progress)
+    grid = _reference_grid(nights, defs, cls, metric, progress=progress, executor=executor)
     notes: list[str] = []
     results: dict[tuple[str, str], Any] = {}
     rows = []

@@ -716,3 +716,37 @@ def test_time_limit_rows_reach_errors_csv_and_are_not_cached(tmp_path, monkeypat
     monkeypatch.setattr(_work, "_measure", real)
     again = run_daily(data, out, executor=InlineExecutor(), time_limit_s=0.5)
     assert (again.n_done, again.n_skipped, again.n_failed) == (1, 2, 0)
+
+
+# ----------------------------------------------------------------------------- other stages
+def test_analyze_many_files_with_jobs_keeps_order_and_values(tmp_path, capsys):
+    files = _squad_folder(tmp_path / "d", subjects=("A01",), n_days=4)
+    bad = tmp_path / "d" / "bad.txt"
+    bad.write_text("RR\nabc\n")
+    args = ["analyze", *map(str, files[:2]), str(bad), *map(str, files[2:]), "--format", "csv"]
+    assert main([*args, "-o", str(tmp_path / "one.csv")]) == 1
+    err_one = capsys.readouterr().err
+    assert main([*args, "-o", str(tmp_path / "two.csv"), "--jobs", "2"]) == 1
+    err_two = capsys.readouterr().err
+    assert (tmp_path / "one.csv").read_bytes() == (tmp_path / "two.csv").read_bytes()
+    assert [ln for ln in err_one.splitlines() if "error" in ln] == \
+        [ln for ln in err_two.splitlines() if "error" in ln]
+    src = pd.read_csv(tmp_path / "two.csv")["source"].tolist()
+    assert [Path(s).name for s in src] == [f.name for f in files]  # the order of the arguments
+
+
+def test_agreement_nights_through_a_pool_same_as_in_process():
+    import datetime as _dt
+    from zoneinfo import ZoneInfo
+
+    from rrkit.simulate import simulate_night
+
+    zone = ZoneInfo("Europe/Berlin")
+    nights = [simulate_night(duration_h=1, seed=70 + i, subject=f"N{i}",
+                             start=_dt.datetime(2026, 3, 10 + i, 23, 0, tzinfo=zone))
+              for i in range(4)]
+    here = rrkit.reference_table(nights, definition="tiles-5min", metric="rmssd_ms")
+    with LocalExecutor(2) as ex:
+        pooled = rrkit.reference_table(nights, definition="tiles-5min", metric="rmssd_ms",
+                                       executor=ex)
+    pd.testing.assert_frame_equal(here, pooled)

@@ -18,6 +18,7 @@ from ._dask import LOCAL_DASK, DaskExecutor
 from ._discover import DEFAULT_EXTENSIONS, Candidate, Discovery, discover, read_manifest
 from ._executor import Executor, InlineExecutor, LocalExecutor, default_jobs, make_executor
 from ._lock import FolderLock
+from ._map import map_files
 from ._pattern import DEFAULT_PATTERN, FilenamePattern
 from ._run import OUTPUT_NAMES, RunSummary, run_daily
 from ._safe import neutralize_cell, neutralize_cells, safe_name
@@ -42,6 +43,7 @@ __all__ = [
     "default_jobs",
     "discover",
     "make_executor",
+    "map_files",
     "neutralize_cell",
     "neutralize_cells",
     "read_manifest",

@@ -85,6 +85,19 @@ def _load_nights(folder: Path, manifest, pattern, tz: str, reported: Path):
     return nights, problems
 
 
+def _reference(reported, nights, search, definition, clean_name, metric, ratio, multiplier,
+               progress, executor):
+    """(reference table, search or None): the per-night computations, run by ``executor``."""
+    from .. import reference_table, search_definitions
+
+    if search:
+        found = search_definitions(reported, nights, metric=metric, ratio=ratio,
+                                   multiplier=multiplier, progress=progress, executor=executor)
+        return None, found
+    return reference_table(nights, definition=definition, clean=clean_name, metric=metric,
+                           progress=progress, executor=executor), None
+
+
 @click.command(name="agree")
 @click.option("--reported", "reported_path", required=True,
               type=click.Path(exists=True, dir_okay=False, path_type=Path),
@@ -117,11 +130,16 @@ def _load_nights(folder: Path, manifest, pattern, tz: str, reported: Path):
                                 "`rrkit daily --help`).")
 @click.option("--tz", default="UTC", show_default=True,
               help="Time zone of naive start times (IANA name such as Europe/Berlin).")
+@click.option("--jobs", type=int, default=1, show_default=True,
+              help="Worker processes for the per-night computations.")
+@click.option("--cluster", metavar="ADDRESS|local-dask", default=None,
+              help="Run the per-night computations on a Dask cluster (see rrkit daily "
+                   "--cluster).")
 @click.option("--progress/--no-progress", default=None,
               help="Progress bar (default: only on a terminal).")
 @click.pass_context
 def command(ctx, reported_path, folder, outdir, metric, definition, clean_name, search, ratio,
-            multiplier, manifest, pattern, tz, progress) -> int:
+            multiplier, manifest, pattern, tz, jobs, cluster, progress) -> int:
     """Agreement of a device's nightly values with values recomputed from the raw nights.
 
     Writes to OUTDIR: agreement_stats.csv (every statistic with its confidence interval),
@@ -134,7 +152,7 @@ def command(ctx, reported_path, folder, outdir, metric, definition, clean_name, 
     """
     import pandas as pd
 
-    from .. import agreement, reference_table, search_definitions
+    from .. import agreement
     from .._agreement_search import REFERENCE_DEFINITIONS, _cleaning, _definition
     from ..errors import InputError
 
@@ -157,18 +175,21 @@ def command(ctx, reported_path, folder, outdir, metric, definition, clean_name, 
     outdir.mkdir(parents=True, exist_ok=True)
     written = []
     search_text = ""
+    if jobs < 1:
+        raise InputError(f"--jobs must be at least 1; got {jobs}")
+    from ..batch import InlineExecutor, make_executor
+
+    with (InlineExecutor() if jobs == 1 and cluster is None
+          else make_executor(jobs, cluster)) as ex:
+        ref, found = _reference(reported, nights, search, definition, clean_name, metric, ratio,
+                                multiplier, progress, ex)
     if search:
-        found = search_definitions(reported, nights, metric=metric, ratio=ratio,
-                                   multiplier=multiplier, progress=progress)
         definition, clean_name = found.best
         atomic_write_text(outdir / OUTPUTS["search"], _csv(found.table), fsync=False)
         written.append(OUTPUTS["search"])
         ref = found.reference[(found.reference["definition"] == definition)
                               & (found.reference["cleaning"] == clean_name)]
         search_text = found.summary_text()
-    else:
-        ref = reference_table(nights, definition=definition, clean=clean_name, metric=metric,
-                              progress=progress)
     res = agreement(reported[["subject", "date", metric]], ref[["subject", "date", metric]],
                     value=metric, ratio=ratio, multiplier=multiplier)
     stats = res.table
