@@ -19,7 +19,8 @@ from pathlib import Path
 import pytest
 
 REPO = Path(__file__).resolve().parents[1]
-CASES = ("clean-night", "windows-night", "night-pipeline", "season-batch", "scaling")
+CASES = ("clean-night", "windows-night", "night-pipeline", "season-batch", "cluster-batch",
+         "scaling")
 
 
 @pytest.fixture(scope="module")

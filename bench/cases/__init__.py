@@ -3,9 +3,10 @@
 
 from __future__ import annotations
 
-from . import clean_night, night_pipeline, scaling, season_batch, windows_night
+from . import clean_night, cluster_batch, night_pipeline, scaling, season_batch, windows_night
 from ._config import Config
 
-CASES = {m.NAME: m for m in (clean_night, windows_night, night_pipeline, season_batch, scaling)}
+CASES = {m.NAME: m for m in (clean_night, windows_night, night_pipeline, season_batch,
+                             cluster_batch, scaling)}
 
 __all__ = ["CASES", "Config"]
