@@ -166,7 +166,18 @@ class LocalExecutor:
 
         def submit(chunk, solo=False) -> None:
             pool = self._ensure()
-            pending[pool.submit(_run_chunk, fn, chunk)] = (chunk, pool, solo)
+            try:
+                fut = pool.submit(_run_chunk, fn, chunk)
+            except BrokenProcessPool:
+                if self._on_broken is None:
+                    raise
+                # a worker died and the pool knows it before its futures say so: a fresh pool
+                # takes this chunk; the old pool's chunks come back as failed and are retried
+                self._pool = None
+                pool.shutdown(wait=False, cancel_futures=True)
+                pool = self._ensure()
+                fut = pool.submit(_run_chunk, fn, chunk)
+            pending[fut] = (chunk, pool, solo)
 
         def fill() -> None:
             if suspects:  # one suspect at a time, alone in the pool
