@@ -543,11 +543,11 @@ def test_cache_entries_are_npz_loaded_without_pickle(tmp_path):
     assert len(entries) == 3
     with np.load(entries[0], allow_pickle=False) as z:  # a plain numpy archive
         assert "meta" in z.files
-        assert "a_raw_rr_ms" in z.files
+        assert "a_lef8" in z.files  # the float64 arrays, end to end
     # one flipped byte inside an array member: the zip CRC-32 catches it
     raw = bytearray(entries[0].read_bytes())
     with zipfile.ZipFile(entries[0]) as zf:
-        info = zf.getinfo("a_raw_rr_ms.npy")
+        info = zf.getinfo("a_lef8.npy")
     at = info.header_offset + 30 + len(info.filename) + len(info.extra) + 200
     raw[at] ^= 0xFF
     entries[0].write_bytes(bytes(raw))
@@ -558,7 +558,7 @@ def test_cache_entries_are_npz_loaded_without_pickle(tmp_path):
 
     buf = _io.BytesIO()
     np.save(buf, np.array([{"x": 1}], dtype=object), allow_pickle=True)
-    members["a_origin.npy"] = buf.getvalue()
+    members["a_lei8.npy"] = buf.getvalue()
     with zipfile.ZipFile(entries[1], "w") as zf:
         for name, blob in members.items():
             zf.writestr(name, blob)

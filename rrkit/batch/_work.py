@@ -36,7 +36,7 @@ __all__ = ["ARRAY_NAMES", "TIME_LIMIT", "TRANSIENT_ERRORS", "WORKER_DIED", "Resu
 ARRAY_NAMES = ("raw_beat_times_s", "raw_rr_ms", "raw_gaps", "label_codes", "changed",
                "corrected_beat_times_s", "corrected_rr_ms", "corrected_gaps", "origin")
 CACHE_DIR = ".rrkit-cache"
-_CACHE_FORMAT = 3
+_CACHE_FORMAT = 4
 _META = "meta"
 _ARRAY_PREFIX = "a_"
 
@@ -221,15 +221,21 @@ def _measure(path: str, settings: DailySettings, out: dict[str, Any]) -> None:
 def write_entry(folder: Path, digest: str, result: dict[str, Any]) -> None:
     """Write one cache entry atomically (see `ResultCache` for the format)."""
     arrays = result.get("arrays") if result.get("ok") else None
-    payload: dict[str, np.ndarray] = {}
-    for name, arr in (arrays or {}).items():
+    groups: dict[str, list[np.ndarray]] = {}
+    specs = []
+    for name, arr in sorted((arrays or {}).items()):
         a = np.ascontiguousarray(arr)
-        if a.dtype.kind not in "biufU":
+        if a.dtype.kind not in "biuf":
             raise TypeError(f"cache: array {name!r} has dtype {a.dtype}, not a plain one")
-        payload[_ARRAY_PREFIX + name] = a
+        key = _ARRAY_PREFIX + a.dtype.str.replace("<", "le").replace(">", "be").replace("|", "")
+        parts = groups.setdefault(key, [])
+        at = sum(p.size for p in parts)
+        parts.append(a.ravel())
+        specs.append({"name": name, "member": key, "shape": list(a.shape), "start": at,
+                      "stop": at + a.size})
     meta = {"format": _CACHE_FORMAT, "settings": digest, "sha256": result["sha256"],
-            "result": {k: v for k, v in result.items() if k != "arrays"},
-            "arrays": sorted(arrays or ())}
+            "result": {k: v for k, v in result.items() if k != "arrays"}, "arrays": specs}
+    payload = {key: np.concatenate(parts) for key, parts in groups.items()}
     payload[_META] = np.frombuffer(json.dumps(meta).encode("utf-8"), dtype=np.uint8)
     with atomic_path(entry_path(folder, digest, result["sha256"]), fsync=False) as tmp, \
             open(tmp, "wb") as fh:
@@ -240,12 +246,13 @@ def _read_entry(path: Path) -> dict[str, Any]:
     # numpy checks each member's CRC-32 as it reads it, so a damaged entry raises here
     with open(path, "rb") as fh, np.load(fh, allow_pickle=False) as z:
         meta = json.loads(z[_META].tobytes().decode("utf-8"))
-        arrays = {}
-        for key in z.files:
-            if key.startswith(_ARRAY_PREFIX):
-                arrays[key[len(_ARRAY_PREFIX):]] = z[key]
-    if sorted(arrays) != meta.get("arrays"):
-        raise ValueError("cache entry lacks arrays its header names")
+        members = {key: z[key] for key in z.files if key.startswith(_ARRAY_PREFIX)}
+    arrays = {}
+    for spec in meta["arrays"]:
+        flat = members[spec["member"]]
+        if not 0 <= spec["start"] <= spec["stop"] <= flat.size:
+            raise ValueError("cache entry: an array lies outside its member")
+        arrays[spec["name"]] = flat[spec["start"]:spec["stop"]].reshape(spec["shape"]).copy()
     meta["arrays"] = arrays
     return meta
 
@@ -267,7 +274,9 @@ class ResultCache:
 
     Each entry is one numpy ``.npz`` archive written atomically: the member ``meta`` holds the
     UTF-8 JSON of the result's scalar fields (with the cache format, settings hash and input
-    SHA-256), and one member ``a_<name>`` per array. Entries are loaded with
+    SHA-256) and where each array lies; the arrays of one dtype are stored end to end in one
+    member (``a_f8``, ``a_b1``...), so an entry has a handful of members to open, not one per
+    array. Entries are loaded with
     ``numpy.load(allow_pickle=False)``, so an entry cannot run code when loaded, and the zip
     format's CRC-32 of every member catches a damaged file. A missing, unreadable or foreign
     entry counts as absent, so the worst a damaged cache can cause is a recomputation.
