@@ -252,13 +252,35 @@ def _reference_grid(recordings, definitions, cleanings, metric: str, *, progress
                              f"night ending on {key[1]} ({keys[key]}); expected one night per "
                              "subject and date")
         keys[key] = rec.source or f"nights[{i}]"
-    from .batch._map import map_files
-
     one = functools.partial(_night_rows, definitions=definitions, cleanings=cleanings,
                             metric=metric, domains=domains)
-    per_night = map_files(one, nights, executor=executor, desc="nights", unit="night",
-                          progress=progress)
+    per_night: list = [None] * len(nights)
+    bar = _progress_bar(len(nights), progress)
+    try:
+        if executor is None:
+            for i, rec in enumerate(nights):
+                per_night[i] = one(rec)
+                bar.update(1)
+        else:  # an rrkit.batch executor (results come back in any order)
+            for i, rows in executor.imap_unordered(functools.partial(_numbered, one),
+                                                   list(enumerate(nights)), chunksize=1):
+                per_night[i] = rows
+                bar.update(1)
+    finally:
+        bar.close()
     return pd.DataFrame([row for rows in per_night for row in rows])
+
+
+def _numbered(fn, pair):
+    i, item = pair
+    return i, fn(item)
+
+
+def _progress_bar(total: int, progress):
+    from tqdm.auto import tqdm
+
+    disable = None if progress is None else not progress  # None: only on a terminal
+    return tqdm(total=total, desc="nights", unit="night", disable=disable, leave=False)
 
 
 def _night_rows(rec, *, definitions, cleanings, metric: str, domains) -> list[dict]:
