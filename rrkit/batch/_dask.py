@@ -100,8 +100,12 @@ class DaskExecutor:
 
     # -------------------------------------------------------------- connection
     def _connect(self) -> None:
-        import dask
-        from distributed import Client, LocalCluster
+        try:
+            import dask
+            from distributed import Client, LocalCluster
+        except ImportError:
+            raise InputError("running on a Dask cluster needs Dask distributed, which is not "
+                             "installed", hint='pip install "rrkit[dask]"') from None
 
         if self.address is None:
             with dask.config.set({"distributed.scheduler.allowed-failures": self.max_losses - 1,
