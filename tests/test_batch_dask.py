@@ -138,9 +138,10 @@ def test_broken_files_same_as_one_job_and_cli(tmp_path, cluster, capsys):
     dsk = run_daily(data, tmp_path / "dask", executor=cluster)
     assert dsk.n_failed == one.n_failed >= 5
     _assert_same_outputs(tmp_path / "one", tmp_path / "dask")
-    # the command line: --cluster local-dask starts (and closes) its own cluster
-    rc = main(["daily", str(data), "-o", str(tmp_path / "cli"), "--cluster", "local-dask",
-               "--jobs", "2"])
+    # the command line, connected to the running cluster by its scheduler's address
+    address = cluster._ensure().scheduler.address
+    assert address.startswith("tcp://127.0.0.1:")
+    rc = main(["daily", str(data), "-o", str(tmp_path / "cli"), "--cluster", address])
     assert rc == 1
     assert "failed" in capsys.readouterr().out
     for name in ("daily.csv", "errors.csv"):
