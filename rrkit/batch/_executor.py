@@ -11,9 +11,10 @@ The interface is deliberately small so that a distributed engine can implement i
 ``close()``
     Release the workers (executors are also context managers).
 
-Optional: ``start()`` starts the workers early (the caller goes on discovering files while they
-start), and ``lost``, a dict item -> number of worker deaths while the item was in flight (the
-retried items, recorded in the run's provenance).
+Optional: ``local_disk`` (True: the workers see this machine's files and may write the output
+folder's resume cache themselves), ``start()`` starts the workers early (the caller goes on
+discovering files while they start), and ``lost``, a dict item -> number of worker deaths while
+the item was in flight (the retried items, recorded in the run's provenance).
 
 `LocalExecutor` runs on a `concurrent.futures.ProcessPoolExecutor`, submitting items in chunks
 so that the cost of sending a task is paid once per chunk, not once per file.
@@ -61,6 +62,7 @@ class InlineExecutor:
     """Runs every item in the calling process, one after the other."""
 
     n_workers = 1
+    local_disk = True  # runs here: sees the same files as the caller
 
     def imap_unordered(self, fn, items, *, chunksize: int = 1):
         for item in items:
@@ -133,6 +135,7 @@ class LocalExecutor:
                  on_broken: Callable[[Any, BaseException], Any] | None = None,
                  max_losses: int = 2) -> None:
         self.n_workers = default_jobs() if jobs is None else check_int("jobs", jobs, low=1)
+        self.local_disk = True  # workers on this machine: they may write beside the caller
         self._preload = tuple(preload)
         self._on_broken = on_broken
         self.max_losses = check_int("max_losses", max_losses, low=1)

@@ -29,6 +29,7 @@ from ._work import (
     TRANSIENT_ERRORS,
     ResultCache,
     broken_result,
+    process_and_cache,
     process_file,
     settings_hash,
 )
@@ -310,7 +311,11 @@ def _run_locked(root: Path, out: Path, *, manifest, pattern, settings: DailySett
 
 
 def _compute(todo, n_total, results, status, cache, s, ex, progress, time_limit_s) -> int:
-    fn = functools.partial(process_file, settings=s, time_limit_s=time_limit_s)
+    if getattr(ex, "local_disk", False):  # the workers write the cache entries themselves
+        fn = functools.partial(process_and_cache, settings=s, time_limit_s=time_limit_s,
+                               cache_folder=str(cache.folder), digest=cache.digest)
+    else:
+        fn = functools.partial(process_file, settings=s, time_limit_s=time_limit_s)
     n_workers = max(1, int(getattr(ex, "n_workers", 1)))
     chunksize = max(1, min(16, n_total // (4 * n_workers)))
     show = progress if progress is not None else (sys.stderr.isatty() and n_total > 20)
@@ -321,9 +326,8 @@ def _compute(todo, n_total, results, status, cache, s, ex, progress, time_limit_
             results[res["relpath"]] = res
             status[res["relpath"]] = "done" if res.get("ok") else "failed"
             n += 1
-            if res.get("error_type") not in TRANSIENT_ERRORS:
-                # written here, by the client, whichever executor ran: the workers need no
-                # access to the output folder, and an entry exists only for a result received
+            if not res.pop("cached", False) and res.get("error_type") not in TRANSIENT_ERRORS:
+                # written here when the workers did not (they may not reach the output folder)
                 try:
                     cache.store(res)
                 except Exception as exc:  # a cache that cannot be written costs a recomputation

@@ -6,10 +6,12 @@ arrays. Any exception becomes a result with ``ok=False``, the error type and a o
 message; warnings are recorded as notes (so a warnings-as-errors setting in the parent cannot
 turn a usable file into a failed one).
 
-The client (the process that runs `rrkit.batch.run_daily`) keeps one cache entry per input in
-``<outdir>/.rrkit-cache/``, named by the input's SHA-256 and the hash of the per-file settings,
-written atomically as each result arrives (workers never write into the output folder). A
-re-run loads the entry instead of recomputing when both hashes are unchanged.
+One cache entry per input is kept in ``<outdir>/.rrkit-cache/``, named by the input's SHA-256
+and the hash of the per-file settings, written atomically: by the pool's worker processes
+(which share this machine's disk; in parallel, off the parent), or by the client as each
+result arrives when the workers are elsewhere (a Dask cluster: its workers never write into
+the output folder). The bytes are the same either way. A re-run loads the entry instead of
+recomputing when both hashes are unchanged.
 """
 
 from __future__ import annotations
@@ -30,7 +32,7 @@ from .._atomic import atomic_path
 from ..daily import DailySettings, _plain, measure_recording
 
 __all__ = ["ARRAY_NAMES", "TIME_LIMIT", "TRANSIENT_ERRORS", "WORKER_DIED", "ResultCache",
-           "process_file", "settings_hash", "time_limit"]
+           "process_and_cache", "process_file", "settings_hash", "time_limit"]
 
 #: Arrays a successful result carries (for the HDF5 store).
 ARRAY_NAMES = ("raw_beat_times_s", "raw_rr_ms", "raw_gaps", "label_codes", "changed",
@@ -218,6 +220,25 @@ def _measure(path: str, settings: DailySettings, out: dict[str, Any]) -> None:
     )
 
 
+def process_and_cache(task: tuple[str, str, str], *, settings: DailySettings,
+                      time_limit_s: float | None, cache_folder: str,
+                      digest: str) -> dict[str, Any]:
+    """`process_file`, then its resume-cache entry written by the worker itself.
+
+    Used by executors whose workers share this machine's file system (the process pool), so
+    that the entries are written in parallel and not by the parent; the result says
+    ``cached=True`` when its entry was written. A failure to write only costs a recomputation.
+    """
+    result = process_file(task, settings=settings, time_limit_s=time_limit_s)
+    if result.get("error_type") not in TRANSIENT_ERRORS:
+        try:
+            write_entry(Path(cache_folder), digest, result)
+            result["cached"] = True
+        except Exception:  # the parent tries again
+            pass
+    return result
+
+
 def write_entry(folder: Path, digest: str, result: dict[str, Any]) -> None:
     """Write one cache entry atomically (see `ResultCache` for the format)."""
     arrays = result.get("arrays") if result.get("ok") else None
@@ -234,7 +255,8 @@ def write_entry(folder: Path, digest: str, result: dict[str, Any]) -> None:
         specs.append({"name": name, "member": key, "shape": list(a.shape), "start": at,
                       "stop": at + a.size})
     meta = {"format": _CACHE_FORMAT, "settings": digest, "sha256": result["sha256"],
-            "result": {k: v for k, v in result.items() if k != "arrays"}, "arrays": specs}
+            "result": {k: v for k, v in result.items() if k not in ("arrays", "cached")},
+            "arrays": specs}
     payload = {key: np.concatenate(parts) for key, parts in groups.items()}
     payload[_META] = np.frombuffer(json.dumps(meta).encode("utf-8"), dtype=np.uint8)
     with atomic_path(entry_path(folder, digest, result["sha256"]), fsync=False) as tmp, \
