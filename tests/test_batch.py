@@ -238,7 +238,7 @@ def test_damaged_cache_entry_is_recomputed(tmp_path):
     _squad_folder(data, subjects=("A01",), n_days=3)
     out = tmp_path / "out"
     first = run_daily(data, out, executor=InlineExecutor())
-    entry = sorted((out / ".rrkit-cache").glob("*.rrc"))[0]
+    entry = sorted((out / ".rrkit-cache").glob("*.npz"))[0]
     entry.write_bytes(entry.read_bytes()[:100])
     again = run_daily(data, out, executor=InlineExecutor())
     assert (again.n_done, again.n_skipped) == (1, 2)
@@ -258,14 +258,14 @@ def test_killed_run_then_rerun_gives_same_table(tmp_path):
     deadline = time.monotonic() + 60
     try:
         while time.monotonic() < deadline and proc.poll() is None:
-            if cache.is_dir() and len(list(cache.glob("*.rrc"))) >= 10:
+            if cache.is_dir() and len(list(cache.glob("*.npz"))) >= 10:
                 break
             time.sleep(0.01)
         assert proc.poll() is None, "the run ended before it could be interrupted"
         os.killpg(proc.pid, signal.SIGKILL)  # the run and its worker process, by group id
     finally:
         proc.wait(timeout=30)
-    n_cached = len(list(cache.glob("*.rrc")))
+    n_cached = len(list(cache.glob("*.npz")))
     assert 10 <= n_cached < 120
     assert not (out / "daily.csv").exists()  # killed before the end: no output at all
     rerun = subprocess.run(cmd, capture_output=True, text=True, timeout=300)
@@ -551,3 +551,223 @@ def test_daily_usage_errors_name_the_option(tmp_path, capsys, option, value, sho
     assert shown in err
     for internal in ("_days", "swc_sd", "first_date"):  # the Python names stay out of it
         assert internal not in err
+
+
+def test_cache_entries_are_npz_loaded_without_pickle(tmp_path):
+    import zipfile
+
+    data = tmp_path / "data"
+    _squad_folder(data, subjects=("A01",), n_days=3)
+    out = tmp_path / "out"
+    first = run_daily(data, out, executor=InlineExecutor())
+    entries = sorted((out / ".rrkit-cache").glob("*.npz"))
+    assert len(entries) == 3
+    with np.load(entries[0], allow_pickle=False) as z:  # a plain numpy archive
+        assert "meta" in z.files
+        assert "a_lef8" in z.files  # the float64 arrays, end to end
+    # one flipped byte inside an array member: the zip CRC-32 catches it
+    raw = bytearray(entries[0].read_bytes())
+    with zipfile.ZipFile(entries[0]) as zf:
+        info = zf.getinfo("a_lef8.npy")
+    at = info.header_offset + 30 + len(info.filename) + len(info.extra) + 200
+    raw[at] ^= 0xFF
+    entries[0].write_bytes(bytes(raw))
+    # an entry holding a pickled object array is refused (never unpickled)
+    with zipfile.ZipFile(entries[1]) as zf:
+        members = {n: zf.read(n) for n in zf.namelist()}
+    import io as _io
+
+    buf = _io.BytesIO()
+    np.save(buf, np.array([{"x": 1}], dtype=object), allow_pickle=True)
+    members["a_lei8.npy"] = buf.getvalue()
+    with zipfile.ZipFile(entries[1], "w") as zf:
+        for name, blob in members.items():
+            zf.writestr(name, blob)
+    again = run_daily(data, out, executor=InlineExecutor())
+    assert (again.n_done, again.n_skipped) == (2, 1)
+    pd.testing.assert_frame_equal(first.table, again.table)
+
+
+# ----------------------------------------------------------------------------- folder lock
+_HOLD = ("import sys, time; from rrkit.batch._lock import FolderLock; "
+         "lk = FolderLock(sys.argv[1]); lk.acquire(); print('held', flush=True); time.sleep(60)")
+
+
+def test_a_second_run_on_the_same_folder_stops_naming_the_holder(tmp_path, capsys, caplog):
+    import logging
+
+    data = tmp_path / "data"
+    _squad_folder(data, subjects=("A01",), n_days=2)
+    out = tmp_path / "out"
+    out.mkdir()
+    holder = subprocess.Popen([sys.executable, "-c", _HOLD, str(out)], stdout=subprocess.PIPE,
+                              text=True)
+    try:
+        assert holder.stdout.readline().strip() == "held"
+        rc = main(["daily", str(data), "-o", str(out), "--jobs", "1"])
+        err = capsys.readouterr().err
+        assert rc == 2
+        assert f"in use by another rrkit run (process {holder.pid}" in err
+        assert len(err.strip().splitlines()) == 1
+        assert not (out / "daily.csv").exists()
+        t0 = time.monotonic()
+        rc = main(["daily", str(data), "-o", str(out), "--jobs", "1", "--wait", "0.5"])
+        assert rc == 2
+        assert time.monotonic() - t0 >= 0.5
+        capsys.readouterr()
+    finally:
+        holder.kill()  # a killed holder: the kernel releases its lock, its file stays
+        holder.wait()
+        holder.stdout.close()
+    assert str(holder.pid) in (out / ".rrkit-lock").read_text()
+    with caplog.at_level(logging.INFO, logger="rrkit"):
+        rc = main(["daily", str(data), "-o", str(out), "--jobs", "1"])
+    assert rc == 0
+    assert f"left by an ended run (process {holder.pid}" in caplog.text
+    assert (out / ".rrkit-lock").read_text() == ""  # released cleanly at the end
+
+
+def test_waiting_run_goes_on_when_the_holder_finishes(tmp_path):
+    from rrkit.batch._lock import FolderLock
+
+    data = tmp_path / "data"
+    _squad_folder(data, subjects=("A01",), n_days=2)
+    out = tmp_path / "out"
+    out.mkdir()
+    lock = FolderLock(out)
+    lock.acquire()
+    import threading
+
+    threading.Timer(0.5, lock.release).start()
+    summary = run_daily(data, out, executor=InlineExecutor(), wait_s=20)
+    assert summary.n_done == 2
+
+
+# ----------------------------------------------------------------------------- special files
+@pytest.mark.skipif(not hasattr(os, "mkfifo"), reason="named pipes need POSIX")
+def test_special_files_are_listed_and_never_hang_the_run(tmp_path):
+    import socket
+
+    data = tmp_path / "data"
+    good = _squad_folder(data, subjects=("A01",), n_days=3)
+    os.mkfifo(data / "A01" / "A01_2026-03-09_0700.txt")  # nobody ever writes into it
+    sock_path = data / "A01" / "A01_2026-03-10_0700.txt"
+    sock = socket.socket(socket.AF_UNIX)
+    try:
+        sock.bind(str(sock_path))
+        os.symlink("/dev/zero", data / "A01" / "A01_2026-03-11_0700.txt")  # a device
+        summary = run_daily(data, tmp_path / "out", jobs=2)
+    finally:
+        sock.close()
+    errors = pd.read_csv(tmp_path / "out" / "errors.csv")
+    assert errors["path"].tolist() == ["A01/A01_2026-03-09_0700.txt",
+                                       "A01/A01_2026-03-10_0700.txt",
+                                       "A01/A01_2026-03-11_0700.txt"]
+    assert set(errors["error_type"]) == {"NotARegularFile"}
+    assert [m.split(",")[0] for m in errors["message"]] == [
+        "a named pipe (FIFO)", "a socket", "a character device"]
+    assert summary.n_done == len(good)
+
+
+def test_a_fifo_that_appears_after_discovery_is_refused_by_the_worker(tmp_path):
+    from rrkit.batch._work import process_file
+
+    if not hasattr(os, "mkfifo"):
+        pytest.skip("named pipes need POSIX")
+    fifo = tmp_path / "late.txt"
+    os.mkfifo(fifo)
+    res = process_file((str(fifo), "late.txt", "0" * 64), settings=DailySettings(),
+                       time_limit_s=5)
+    assert (res["ok"], res["error_type"]) == (False, "NotARegularFile")
+
+
+def _slow_measure(path, settings, out):
+    while True:  # a pathological file: the work never ends
+        sum(range(1000))
+
+
+@pytest.mark.parametrize("in_thread", [False, True])
+def test_per_file_time_limit_stops_a_file_and_says_so(tmp_path, monkeypatch, in_thread):
+    import threading
+
+    from rrkit.batch import _work
+
+    monkeypatch.setattr(_work, "_measure", _slow_measure)
+    task = (str(tmp_path / "x.txt"), "x.txt", "0" * 64)
+    got = {}
+
+    def run():
+        got["res"] = _work.process_file(task, settings=DailySettings(), time_limit_s=0.3)
+
+    t0 = time.monotonic()
+    if in_thread:  # as in a Dask worker, whose tasks run in threads
+        th = threading.Thread(target=run)
+        th.start()
+        th.join(10)
+        assert not th.is_alive()
+    else:
+        run()
+    assert time.monotonic() - t0 < 5
+    res = got["res"]
+    assert (res["ok"], res["error_type"]) == (False, "TimeLimitExceeded")
+    assert "per-file time limit" in res["message"]
+    assert "0.3 s" in res["message"]
+
+
+def test_time_limit_rows_reach_errors_csv_and_are_not_cached(tmp_path, monkeypatch):
+    from rrkit.batch import _work
+
+    data = tmp_path / "data"
+    _squad_folder(data, subjects=("A01",), n_days=3)
+    real = _work._measure
+
+    def sometimes_slow(path, settings, out):
+        if path.endswith("03-03_0710.txt"):
+            _slow_measure(path, settings, out)
+        real(path, settings, out)
+
+    monkeypatch.setattr(_work, "_measure", sometimes_slow)
+    out = tmp_path / "out"
+    summary = run_daily(data, out, executor=InlineExecutor(), time_limit_s=0.5)
+    assert summary.n_done == 2
+    assert summary.n_failed == 1
+    errors = pd.read_csv(out / "errors.csv")
+    assert errors["error_type"].tolist() == ["TimeLimitExceeded"]
+    assert len(list((out / ".rrkit-cache").glob("*.npz"))) == 2  # the stopped file: not cached
+    monkeypatch.setattr(_work, "_measure", real)
+    again = run_daily(data, out, executor=InlineExecutor(), time_limit_s=0.5)
+    assert (again.n_done, again.n_skipped, again.n_failed) == (1, 2, 0)
+
+
+# ----------------------------------------------------------------------------- other stages
+def test_analyze_many_files_with_jobs_keeps_order_and_values(tmp_path, capsys):
+    files = _squad_folder(tmp_path / "d", subjects=("A01",), n_days=4)
+    bad = tmp_path / "d" / "bad.txt"
+    bad.write_text("RR\nabc\n")
+    args = ["analyze", *map(str, files[:2]), str(bad), *map(str, files[2:]), "--format", "csv"]
+    assert main([*args, "-o", str(tmp_path / "one.csv")]) == 1
+    err_one = capsys.readouterr().err
+    assert main([*args, "-o", str(tmp_path / "two.csv"), "--jobs", "2"]) == 1
+    err_two = capsys.readouterr().err
+    assert (tmp_path / "one.csv").read_bytes() == (tmp_path / "two.csv").read_bytes()
+    assert [ln for ln in err_one.splitlines() if "error" in ln] == \
+        [ln for ln in err_two.splitlines() if "error" in ln]
+    src = pd.read_csv(tmp_path / "two.csv")["source"].tolist()
+    assert [Path(s).name for s in src] == [f.name for f in files]  # the order of the arguments
+
+
+def test_agreement_nights_through_a_pool_same_as_in_process():
+    import datetime as _dt
+    from zoneinfo import ZoneInfo
+
+    from rrkit.simulate import simulate_night
+
+    zone = ZoneInfo("Europe/Berlin")
+    nights = [simulate_night(duration_h=1, seed=70 + i, subject=f"N{i}",
+                             start=_dt.datetime(2026, 3, 10 + i, 23, 0, tzinfo=zone))
+              for i in range(4)]
+    here = rrkit.reference_table(nights, definition="tiles-5min", metric="rmssd_ms")
+    with LocalExecutor(2) as ex:
+        pooled = rrkit.reference_table(nights, definition="tiles-5min", metric="rmssd_ms",
+                                       executor=ex)
+    pd.testing.assert_frame_equal(here, pooled)

@@ -20,6 +20,7 @@ import pytest
 
 REPO = Path(__file__).resolve().parents[1]
 CASES = ("clean-night", "windows-night", "night-pipeline", "fresh-process", "season-batch",
+         "cluster-batch",
          "scaling")
 
 

@@ -5,6 +5,7 @@ from __future__ import annotations
 
 from . import (
     clean_night,
+    cluster_batch,
     fresh_process,
     night_pipeline,
     scaling,
@@ -14,6 +15,6 @@ from . import (
 from ._config import Config
 
 CASES = {m.NAME: m for m in (clean_night, windows_night, night_pipeline, fresh_process,
-                              season_batch, scaling)}
+                              season_batch, cluster_batch, scaling)}
 
 __all__ = ["CASES", "Config"]

@@ -9,6 +9,7 @@ an aggregation over them.
 
 from __future__ import annotations
 
+import functools
 import logging
 import math
 from collections.abc import Mapping, Sequence
@@ -244,11 +245,14 @@ def aggregate(d: ReferenceDefinition, values) -> tuple[float, int, str]:
     return float(np.mean([v[0] for v in kept])), len(kept), note
 
 
-def reference_grid(recordings, definitions, cleanings, metric: str, *, progress=None):
-    """Long table: one row per night x definition x cleaning."""
-    import pandas as pd
+def reference_grid(recordings, definitions, cleanings, metric: str, *, progress=None,
+                   executor=None):
+    """Long table: one row per night x definition x cleaning.
 
-    from ..clean import clean as run_clean
+    ``executor`` (an `rrkit.batch` executor) runs the per-night computations elsewhere; the
+    rows come back in the order of the nights whichever executor ran them.
+    """
+    import pandas as pd
 
     _domains_for(metric)  # an unknown metric is an error before any night is cleaned
     nights = list(recordings)
@@ -267,38 +271,59 @@ def reference_grid(recordings, definitions, cleanings, metric: str, *, progress=
                              f"night ending on {key[1]} ({keys[key]}); expected one night per "
                              "subject and date")
         keys[key] = rec.source or f"nights[{i}]"
-    rows = []
-    bar = _progress_bar(len(nights) * len(cleanings), progress)
+    one = functools.partial(_night_rows, definitions=definitions, cleanings=cleanings,
+                            metric=metric)
+    per_night: list = [None] * len(nights)
+    bar = _progress_bar(len(nights), progress)
     try:
-        for rec in nights:
-            subject, day = str(rec.subject), night_date(rec).isoformat()
-            for clabel, kwargs in cleanings:
-                cr = run_clean(rec, **kwargs)
-                cache: dict[str, list] = {}
-                for d in definitions:
-                    ckey = repr(d.windows)
-                    if ckey not in cache:
-                        cache[ckey] = window_values(cr, d.windows, metric)
-                    value, used, note = aggregate(d, cache[ckey])
-                    rows.append({"subject": subject, "date": day, "source": rec.source,
-                                 "definition": d.name, "cleaning": clabel, metric: value,
-                                 "n_windows": used, "note": note})
+        if executor is None:
+            for i, rec in enumerate(nights):
+                per_night[i] = one(rec)
+                bar.update(1)
+        else:  # an rrkit.batch executor (results come back in any order)
+            for i, rows in executor.imap_unordered(functools.partial(_numbered, one),
+                                                   list(enumerate(nights)), chunksize=1):
+                per_night[i] = rows
                 bar.update(1)
     finally:
         bar.close()
-    return pd.DataFrame(rows)
+    return pd.DataFrame([row for rows in per_night for row in rows])
+
+
+def _numbered(fn, pair):
+    i, item = pair
+    return i, fn(item)
+
+
+def _night_rows(rec, *, definitions, cleanings, metric: str) -> list[dict]:
+    """The reference rows of one night (every definition x cleaning); run by a batch worker."""
+    from ..clean import clean as run_clean
+
+    rows = []
+    subject, day = str(rec.subject), night_date(rec).isoformat()
+    for clabel, kwargs in cleanings:
+        cr = run_clean(rec, **kwargs)
+        cache: dict[str, list] = {}
+        for d in definitions:
+            ckey = repr(d.windows)
+            if ckey not in cache:
+                cache[ckey] = window_values(cr, d.windows, metric)
+            value, used, note = aggregate(d, cache[ckey])
+            rows.append({"subject": subject, "date": day, "source": rec.source,
+                         "definition": d.name, "cleaning": clabel, metric: value,
+                         "n_windows": used, "note": note})
+    return rows
 
 
 def _progress_bar(total: int, progress):
     from tqdm.auto import tqdm
 
     disable = None if progress is None else not progress  # None: only on a terminal
-    return tqdm(total=total, desc="nights x cleanings", unit="night", disable=disable,
-                leave=False)
+    return tqdm(total=total, desc="nights", unit="night", disable=disable, leave=False)
 
 
 def reference_table(nights: Sequence[Recording], *, definition="whole-night", clean="drr",
-                    metric: str = "rmssd_ms", progress: bool | None = None):
+                    metric: str = "rmssd_ms", progress: bool | None = None, executor=None):
     """Nightly reference values computed from raw nights with one definition and cleaning.
 
     Parameters
@@ -314,6 +339,8 @@ def reference_table(nights: Sequence[Recording], *, definition="whole-night", cl
         Key of `rrkit.metrics` (default ``"rmssd_ms"``).
     progress : bool, optional
         Progress bar; default only on a terminal.
+    executor : rrkit.batch.Executor, optional
+        Where the per-night computations run (default: in this process).
 
     Returns
     -------
@@ -324,4 +351,5 @@ def reference_table(nights: Sequence[Recording], *, definition="whole-night", cl
     """
     d = as_definition(definition)
     c = as_cleaning(clean)
-    return reference_grid(nights, [d], [c], metric, progress=progress).reset_index(drop=True)
+    return reference_grid(nights, [d], [c], metric, progress=progress,
+                          executor=executor).reset_index(drop=True)

@@ -152,6 +152,7 @@ def search_definitions(
     multiplier: float = 1.96,
     min_coverage: float = 0.8,
     progress: bool | None = None,
+    executor=None,
 ) -> DefinitionSearch:
     """Rank reference definitions x cleaning settings by their agreement with reported values.
 
@@ -177,6 +178,8 @@ def search_definitions(
         window outside short nights, are listed unranked). Default 0.8.
     progress : bool, optional
         Progress bar; default only on a terminal.
+    executor : rrkit.batch.Executor, optional
+        Where the per-night computations run (default: in this process).
 
     Returns
     -------
@@ -211,7 +214,7 @@ def search_definitions(
     cls = [as_cleaning(c) for c in (cleanings if cleanings is not None else list(CLEANINGS))]
     if not defs or not cls:
         raise InputError("give at least one definition and one cleaning")
-    grid = reference_grid(nights, defs, cls, metric, progress=progress)
+    grid = reference_grid(nights, defs, cls, metric, progress=progress, executor=executor)
     notes: list[str] = []
     results: dict[tuple[str, str], Any] = {}
     rows = []

@@ -12,6 +12,7 @@ import csv
 import datetime as dt
 import hashlib
 import os
+import stat
 from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any
@@ -79,10 +80,38 @@ class Discovery:
     manifest: str | None = None
 
 
+NOT_REGULAR = "NotARegularFile"
+
+
+def special_kind(mode: int) -> str | None:
+    """What a non-regular file is (``"a named pipe (FIFO)"``...), or None for a regular file."""
+    if stat.S_ISREG(mode):
+        return None
+    for test, name in ((stat.S_ISFIFO, "a named pipe (FIFO)"), (stat.S_ISSOCK, "a socket"),
+                       (stat.S_ISCHR, "a character device"), (stat.S_ISBLK, "a block device"),
+                       (stat.S_ISDIR, "a folder")):
+        if test(mode):
+            return name
+    return "not a regular file"
+
+
+def not_regular_message(kind: str) -> str:
+    """The ``errors.csv`` message for a special file."""
+    return f"{kind}, not a regular file: only regular files are read (it was left alone)"
+
+
 def sha256_file(path: str | os.PathLike[str], *, block: int = 1 << 20) -> str:
-    """SHA-256 hex digest of a file's bytes."""
+    """SHA-256 hex digest of a regular file's bytes.
+
+    The file is opened without blocking and checked to be a regular file before it is read,
+    so a named pipe never makes the run wait (an `OSError` says what it is instead).
+    """
     h = hashlib.sha256()
-    with open(path, "rb") as fh:
+    fd = os.open(path, os.O_RDONLY | getattr(os, "O_NONBLOCK", 0) | getattr(os, "O_BINARY", 0))
+    with os.fdopen(fd, "rb") as fh:
+        kind = special_kind(os.fstat(fd).st_mode)
+        if kind is not None:
+            raise OSError(not_regular_message(kind))
         while chunk := fh.read(block):
             h.update(chunk)
     return h.hexdigest()
@@ -102,8 +131,10 @@ def _is_recording_name(name: str, extensions: tuple[str, ...]) -> bool:
     return any(low.endswith(e) for e in extensions)
 
 
-def _walk(root: Path, exclude: list[Path], extensions: tuple[str, ...]) -> tuple[list[Path], int]:
-    # root is resolved by the caller; paths below it are built from it (no per-file resolve)
+def _walk(root: Path, exclude: list[Path], extensions: tuple[str, ...],
+          special: list[tuple[str, str, str]]) -> tuple[list[Path], int]:
+    # root is resolved by the caller; paths below it are built from it (no per-file resolve).
+    # Special files with a recording's name (FIFOs, sockets, devices) go to ``special``.
     files: list[Path] = []
     ignored = 0
     excl = {p.resolve() for p in exclude}
@@ -117,6 +148,13 @@ def _walk(root: Path, exclude: list[Path], extensions: tuple[str, ...]) -> tuple
             if name.startswith(".") or (name in excl_names and p.resolve() in excl):
                 continue
             if _is_recording_name(name, extensions):
+                try:
+                    kind = special_kind(os.stat(p).st_mode)
+                except OSError:
+                    kind = None  # a dangling link: reported when it is read
+                if kind is not None:
+                    special.append((_rel(p, root), NOT_REGULAR, not_regular_message(kind)))
+                    continue
                 files.append(p)
             else:
                 ignored += 1
@@ -269,11 +307,13 @@ def discover(
     if manifest is not None:
         excl.append(Path(manifest))
     root_res = root.resolve()
-    files, ignored = _walk(root_res, excl, extensions)
+    special: list[tuple[str, str, str]] = []
+    files, ignored = _walk(root_res, excl, extensions, special)
     problems: list[tuple[str, str, str]] = []
     entries: dict[Path, tuple[int, dict]] = {}
     if manifest is not None:
         entries, problems = read_manifest(manifest, root=root)
+    problems += special
     pat = None
     if pattern is not None:
         pat = pattern if isinstance(pattern, FilenamePattern) else FilenamePattern(pattern)
@@ -311,7 +351,10 @@ def discover(
     for full, (lineno, _) in entries.items():
         if full not in seen:
             shown = _rel(full, root_res)
-            if full.is_file():
+            kind = special_kind(full.stat().st_mode) if full.exists() else None
+            if kind is not None:
+                problems.append((shown, NOT_REGULAR, not_regular_message(kind)))
+            elif full.is_file():
                 # listed in the manifest but outside the scanned folder or with another ending
                 e = entries[full][1]
                 candidates.append(Candidate(full, shown, e["subject"], e["start"], e["marked"],

@@ -19,11 +19,21 @@ from .._atomic import atomic_path, atomic_write_text, remove_stale_temporaries
 from .._version import __version__
 from ..daily import DAILY_METRICS, DailySettings, daily_table, weekly_summary
 from ..errors import InputError
-from ._discover import Candidate, assign, discover, sha256_file
-from ._executor import Executor, LocalExecutor
+from ._choose import make_executor
+from ._discover import NOT_REGULAR, Candidate, assign, discover, sha256_file
+from ._executor import Executor
+from ._lock import FolderLock
 from ._pattern import FilenamePattern
 from ._safe import neutralize_cells
-from ._work import CACHE_DIR, ResultCache, broken_result, process_and_cache, settings_hash
+from ._work import (
+    CACHE_DIR,
+    TRANSIENT_ERRORS,
+    ResultCache,
+    broken_result,
+    process_and_cache,
+    process_file,
+    settings_hash,
+)
 
 __all__ = ["OUTPUT_NAMES", "RunSummary", "run_daily"]
 
@@ -106,6 +116,9 @@ def run_daily(
     first_date: dt.date | str | None = None,
     last_date: dt.date | str | None = None,
     command: list[str] | None = None,
+    wait_s: float = 0.0,
+    time_limit_s: float | None = 300.0,
+    cluster: str | None = None,
 ) -> RunSummary:
     """Process a folder of recordings into a daily table and write every output atomically.
 
@@ -124,9 +137,11 @@ def run_daily(
         ``{subject}_{date}[_{time}]*`` when no manifest is given.
     settings : DailySettings, optional
     jobs : int, optional
-        Worker processes (default all cores). Ignored when ``executor`` is given.
+        Worker processes (default all cores); with ``cluster="local-dask"`` the workers of the
+        local Dask cluster. Ignored when ``executor`` is given.
     executor : Executor, optional
-        Where the per-file work runs (default a `LocalExecutor` with ``jobs`` workers).
+        Where the per-file work runs (default a `LocalExecutor` with ``jobs`` workers, or a
+        `DaskExecutor` when ``cluster`` is given).
     progress : bool, optional
         Show a progress bar (tqdm) on standard error; default: when it is a terminal and more
         than 20 files need work.
@@ -134,6 +149,17 @@ def run_daily(
         Span of the daily table (default: the dates found).
     command : list of str, optional
         The command line, recorded in the provenance.
+    wait_s : float
+        How long to wait when another run holds the output folder (default 0: stop at once
+        with an `InputError` naming that run's process); see `rrkit.batch.FolderLock`.
+    time_limit_s : float or None
+        Per-file time limit in seconds (default 300; None or 0: none). A file that takes
+        longer is stopped and listed in ``errors.csv`` as ``TimeLimitExceeded`` (not cached,
+        so a re-run tries it again).
+    cluster : str, optional
+        A Dask scheduler address (``tcp://host:8786``) or ``"local-dask"`` (a
+        `distributed.LocalCluster` on this machine): the per-file work runs there (see
+        `rrkit.batch.DaskExecutor` and docs/cluster.md). The outputs are the same.
 
     Returns
     -------
@@ -146,40 +172,70 @@ def run_daily(
     SHA-256 and the hash of the per-file settings are unchanged, so an interrupted run resumes
     where it stopped and an unchanged re-run recomputes nothing; the table is the same.
     """
-    import pandas as pd
 
-    s = settings or DailySettings()
-    root = Path(root)
     out = Path(outdir)
     out.mkdir(parents=True, exist_ok=True)
+    with FolderLock(out, wait_s=wait_s):
+        return _run_locked(Path(root), out, manifest=manifest, pattern=pattern,
+                           settings=settings or DailySettings(), jobs=jobs, executor=executor,
+                           progress=progress, first_date=first_date, last_date=last_date,
+                           command=command, time_limit_s=time_limit_s, cluster=cluster)
+
+
+def _run_locked(root: Path, out: Path, *, manifest, pattern, settings: DailySettings, jobs,
+                executor, progress, first_date, last_date, command,
+                time_limit_s, cluster) -> RunSummary:
+    import pandas as pd
+
+    s = settings
     n_stale = remove_stale_temporaries(out) + remove_stale_temporaries(out / CACHE_DIR)
     if n_stale:
         log.info("removed %d temporary files left by an interrupted run", n_stale)
-    disc = discover(root, manifest=manifest, pattern=pattern, exclude=(out,))
-    errors: list[tuple[str, str, str]] = list(disc.problems)
-    digest = settings_hash(s)
-    cache = ResultCache(out, digest)
-
-    hashed: list[tuple[Candidate, str]] = []
-    for cand in disc.candidates:
-        try:
-            hashed.append((cand, sha256_file(cand.path)))
-        except OSError as exc:
-            errors.append((cand.relpath, type(exc).__name__, exc.strerror or str(exc)))
+    own = executor is None
+    ex = executor if executor is not None else make_executor(
+        jobs, cluster, preload=_PRELOAD, on_broken=broken_result)
     results: dict[str, dict] = {}
     status: dict[str, str] = {}
-    todo: list[tuple[str, str, str]] = []
-    for cand, sha in hashed:
-        cached = cache.load(sha, cand.relpath)
-        if cached is not None:
-            results[cand.relpath] = cached
-            status[cand.relpath] = "skipped"
-        else:
-            todo.append((str(cand.path), cand.relpath, sha))
+    hashed: list[tuple[Candidate, str]] = []
+    try:
+        start = getattr(ex, "start", None)
+        if callable(start):
+            start()  # the workers start (and import) while discovery and hashing run here
+        disc = discover(root, manifest=manifest, pattern=pattern, exclude=(out,))
+        errors: list[tuple[str, str, str]] = list(disc.problems)
+        digest = settings_hash(s)
+        cache = ResultCache(out, digest)
 
-    n_computed = 0
-    if todo:
-        n_computed = _compute(todo, results, status, cache, s, jobs, executor, progress)
+        def work():
+            # hashed and looked up in the cache one by one, so the first files are already
+            # being measured while the rest are hashed
+            for cand in disc.candidates:
+                try:
+                    sha = sha256_file(cand.path)
+                except OSError as exc:
+                    message = exc.strerror or str(exc)
+                    errors.append((cand.relpath, NOT_REGULAR if "not a regular file" in message
+                                   else type(exc).__name__, message))
+                    continue
+                hashed.append((cand, sha))
+                cached = cache.load(sha, cand.relpath)
+                if cached is not None:
+                    results[cand.relpath] = cached
+                    status[cand.relpath] = "skipped"
+                else:
+                    yield (str(cand.path), cand.relpath, sha)
+
+        n_computed = _compute(work(), len(disc.candidates), results, status, cache, s, ex,
+                              progress, time_limit_s)
+        retried = {item[1]: n for item, n in dict(getattr(ex, "lost", {}) or {}).items()
+                   if isinstance(item, tuple) and len(item) == 3}
+    finally:
+        if own:
+            ex.close()
+    if retried:
+        log.warning("%d files were in flight on a worker that died and were retried: %s",
+                    len(retried), ", ".join(sorted(retried)[:5])
+                    + (" ..." if len(retried) > 5 else ""))
 
     # placement (manifest > pattern > file) and the per-recording table
     per_rec: list[dict] = []
@@ -246,7 +302,8 @@ def run_daily(
         summary.below_swc = sorted(last["subject"].astype(str).unique())
 
     outputs = _write_outputs(out, table, weekly, recordings, err_df, store_recs, s)
-    prov = _provenance(root, disc, s, digest, hashed, status, results, outputs, summary, command)
+    prov = _provenance(root, disc, s, digest, hashed, status, results, outputs, summary, command,
+                       retried)
     atomic_write_text(out / OUTPUT_NAMES["provenance"], prov)
     outputs["provenance"] = out / OUTPUT_NAMES["provenance"]
     summary.outputs = outputs
@@ -254,15 +311,15 @@ def run_daily(
     return summary
 
 
-def _compute(todo, results, status, cache, s, jobs, executor, progress) -> int:
-    fn = functools.partial(process_and_cache, settings=s, cache_folder=str(cache.folder),
-                           digest=cache.digest)
-    own = executor is None
-    ex = executor if executor is not None else LocalExecutor(jobs, preload=_PRELOAD,
-                                                             on_broken=broken_result)
+def _compute(todo, n_total, results, status, cache, s, ex, progress, time_limit_s) -> int:
+    if getattr(ex, "local_disk", False):  # the workers write the cache entries themselves
+        fn = functools.partial(process_and_cache, settings=s, time_limit_s=time_limit_s,
+                               cache_folder=str(cache.folder), digest=cache.digest)
+    else:
+        fn = functools.partial(process_file, settings=s, time_limit_s=time_limit_s)
     n_workers = max(1, int(getattr(ex, "n_workers", 1)))
-    chunksize = max(1, min(16, len(todo) // (4 * n_workers)))
-    show = progress if progress is not None else (sys.stderr.isatty() and len(todo) > 20)
+    chunksize = max(1, min(16, n_total // (4 * n_workers)))
+    show = progress if progress is not None else (sys.stderr.isatty() and n_total > 20)
     bar = None
     n = 0
     try:
@@ -270,19 +327,23 @@ def _compute(todo, results, status, cache, s, jobs, executor, progress) -> int:
             results[res["relpath"]] = res
             status[res["relpath"]] = "done" if res.get("ok") else "failed"
             n += 1
+            if not res.pop("cached", False) and res.get("error_type") not in TRANSIENT_ERRORS:
+                # written here when the workers did not (they may not reach the output folder)
+                try:
+                    cache.store(res)
+                except Exception as exc:  # a cache that cannot be written costs a recomputation
+                    log.warning("resume cache not written for %s: %s", res["relpath"], exc)
             if show and bar is None:
                 # created once the workers run, so its monitor thread never precedes a fork
                 from tqdm import tqdm
 
-                bar = tqdm(total=len(todo), initial=n - 1, unit="file", desc="rrkit daily",
-                           file=sys.stderr, leave=False, dynamic_ncols=True)
+                bar = tqdm(total=n_total, unit="file", desc="rrkit daily", file=sys.stderr,
+                           leave=False, dynamic_ncols=True)
             if bar is not None:
-                bar.update(1)
+                bar.update(len(status) - bar.n)
     finally:
         if bar is not None:
             bar.close()
-        if own:
-            ex.close()
     return n
 
 
@@ -334,7 +395,7 @@ def _sha(path: Path) -> str:
 
 
 def _provenance(root, disc, s, digest, hashed, status, results, outputs, summary,
-                command) -> str:
+                command, retried) -> str:
     import h5py
     import numpy
     import pandas
@@ -363,6 +424,7 @@ def _provenance(root, disc, s, digest, hashed, status, results, outputs, summary
                    "skipped": summary.n_skipped, "failed": summary.n_failed,
                    "ignored": summary.n_ignored},
         "inputs": inputs,
+        "retried_after_worker_loss": dict(sorted(retried.items())),
         "outputs": {k: {"path": p.name, "sha256": _sha(p)} for k, p in outputs.items()},
         "caution": "rrkit is not a medical device and makes no diagnosis; training decisions "
                    "rest with qualified staff.",

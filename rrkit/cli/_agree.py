@@ -35,6 +35,19 @@ def _csv(df) -> str:
     return neutralize_cells(df).to_csv(index=False, lineterminator="\n", float_format="%.6g")
 
 
+def _reference(reported, nights, search, definition, clean_name, metric, ratio, multiplier,
+               progress, executor):
+    """(reference table, search or None): the per-night computations, run by ``executor``."""
+    from ..agreement import reference_table, search_definitions
+
+    if search:
+        found = search_definitions(reported, nights, metric=metric, ratio=ratio,
+                                   multiplier=multiplier, progress=progress, executor=executor)
+        return None, found
+    return reference_table(nights, definition=definition, clean=clean_name, metric=metric,
+                           progress=progress, executor=executor), None
+
+
 @click.command(name="agree")
 @click.option("--reported", "reported_path", required=True,
               type=click.Path(exists=True, dir_okay=False, path_type=Path),
@@ -67,11 +80,16 @@ def _csv(df) -> str:
                                 "`rrkit daily --help`).")
 @click.option("--tz", default="UTC", show_default=True,
               help="Time zone of naive start times (IANA name such as Europe/Berlin).")
+@click.option("--jobs", type=int, default=1, show_default=True,
+              help="Worker processes for the per-night computations.")
+@click.option("--cluster", metavar="ADDRESS|local-dask", default=None,
+              help="Run the per-night computations on a Dask cluster (see rrkit daily "
+                   "--cluster).")
 @click.option("--progress/--no-progress", default=None,
               help="Progress bar (default: only on a terminal).")
 @click.pass_context
 def command(ctx, reported_path, folder, outdir, metric, definition, clean_name, search, ratio,
-            multiplier, manifest, pattern, tz, progress) -> int:
+            multiplier, manifest, pattern, tz, jobs, cluster, progress) -> int:
     """Agreement of a device's nightly values with values recomputed from the raw nights.
 
     Writes to OUTDIR: agreement_stats.csv (every statistic with its confidence interval),
@@ -90,8 +108,6 @@ def command(ctx, reported_path, folder, outdir, metric, definition, clean_name, 
         as_cleaning,
         as_definition,
         read_reported,
-        reference_table,
-        search_definitions,
     )
     from ..batch import read_nights
     from ..errors import ERROR_COLUMNS, InputError
@@ -109,18 +125,21 @@ def command(ctx, reported_path, folder, outdir, metric, definition, clean_name, 
     outdir.mkdir(parents=True, exist_ok=True)
     written = []
     search_text = ""
+    if jobs < 1:
+        raise InputError(f"--jobs must be at least 1; got {jobs}")
+    from ..batch import InlineExecutor, make_executor
+
+    with (InlineExecutor() if jobs == 1 and cluster is None
+          else make_executor(jobs, cluster)) as ex:
+        ref, found = _reference(reported, nights, search, definition, clean_name, metric, ratio,
+                                multiplier, progress, ex)
     if search:
-        found = search_definitions(reported, nights, metric=metric, ratio=ratio,
-                                   multiplier=multiplier, progress=progress)
         definition, clean_name = found.best
         atomic_write_text(outdir / OUTPUTS["search"], _csv(found.table), fsync=False)
         written.append(OUTPUTS["search"])
         ref = found.reference[(found.reference["definition"] == definition)
                               & (found.reference["cleaning"] == clean_name)]
         search_text = found.summary_text()
-    else:
-        ref = reference_table(nights, definition=definition, clean=clean_name, metric=metric,
-                              progress=progress)
     res = agreement(reported[["subject", "date", metric]], ref[["subject", "date", metric]],
                     value=metric, ratio=ratio, multiplier=multiplier)
     stats = res.table

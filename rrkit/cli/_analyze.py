@@ -13,6 +13,7 @@ written); 2 a usage error or no file could be analysed.
 
 from __future__ import annotations
 
+import functools
 import json
 import math
 import sys
@@ -59,10 +60,14 @@ TABLE_COLUMNS = (
               help="Absolute time of the first beat for files that hold no timestamps, e.g. "
                    "2026-01-11T06:28:00+01:00 (needed by clock windows); a file with its own "
                    "start time is an error.")
+@click.option("--jobs", type=int, default=1, show_default=True,
+              help="Worker processes for several files (the order of the output is kept).")
+@click.option("--cluster", metavar="ADDRESS|local-dask", default=None,
+              help="Analyse the files on a Dask cluster (see rrkit daily --cluster).")
 @click.option("--progress/--no-progress", default=None,
               help="Progress bar (default: on a terminal).")
-def command(files, window, clean_method, psd, bands, fmt, output, reading, start_text,
-            progress) -> int:
+def command(files, window, clean_method, psd, bands, fmt, output, reading, start_text, jobs,
+            cluster, progress) -> int:
     """HRV metrics of each analysis window of FILE... (time, frequency, nonlinear domains).
 
     Reads each file (rrkit info shows how), corrects artifacts over the whole recording, then
@@ -87,8 +92,7 @@ def command(files, window, clean_method, psd, bands, fmt, output, reading, start
     """
     import pandas as pd
 
-    from ..analysis import analyze
-    from ..io import read
+    from ..batch import map_files
     from ..metrics import Bands
     from ..windows import parse_window
 
@@ -100,18 +104,22 @@ def command(files, window, clean_method, psd, bands, fmt, output, reading, start
         fmt = {".csv": "csv", ".json": "json"}.get(suffix, "table")
     if progress is None:
         progress = sys.stderr.isatty()
+    if jobs < 1:
+        raise InputError(f"--jobs must be at least 1; got {jobs}")
+    one = functools.partial(_analyze_one, spec=spec, start=start, start_text=start_text,
+                            read_kw=reading,
+                            analyze_kw={"clean": None if clean_method == "none"
+                                            else clean_method, "psd": psd, "bands": band_map,
+                                            "progress": progress and len(files) == 1})
     tables, failed = [], 0
-    for path in _iter_files(files, progress):
-        try:
-            rec = read(path, **reading)
-            if start is not None:
-                rec = _with_start(rec, start, start_text)
-            tables.append(analyze(rec, windows=spec, clean=None if clean_method == "none"
-                                  else clean_method, psd=psd, bands=band_map,
-                                  progress=progress and len(files) == 1))
-        except InputError as exc:
+    for table, message in map_files(one, files, jobs=jobs, cluster=cluster,
+                                    progress=progress and len(files) > 1,
+                                    desc="analyze", on_lost=_lost):
+        if table is None:
             failed += 1
-            click.echo(f"rrkit: error: {error_line(exc, 'analyze')}", err=True)
+            click.echo(f"rrkit: error: {message}", err=True)
+        else:
+            tables.append(table)
     if not tables:
         return 2
     df = pd.concat(tables, ignore_index=True) if len(tables) > 1 else tables[0]
@@ -127,12 +135,22 @@ def command(files, window, clean_method, psd, bands, fmt, output, reading, start
     return 1 if failed else 0
 
 
-def _iter_files(files, progress):
-    if progress and len(files) > 1:
-        from tqdm.auto import tqdm
+def _analyze_one(path, *, spec, start, start_text, read_kw, analyze_kw):
+    """(window table, None) for one file, or (None, the error line) for a user-level error."""
+    from ..analysis import analyze
+    from ..io import read
 
-        return tqdm(files, desc="analyze", unit="file", leave=False)
-    return files
+    try:
+        rec = read(path, **read_kw)
+        if start is not None:
+            rec = _with_start(rec, start, start_text)
+        return analyze(rec, windows=spec, **analyze_kw), None
+    except InputError as exc:
+        return None, error_line(exc, "analyze")
+
+
+def _lost(path, exc) -> tuple[None, str]:
+    return None, f"{path}: the worker process died every time it read this file"
 
 
 def _parse_start(text: str | None):

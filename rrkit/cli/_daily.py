@@ -155,11 +155,22 @@ def _command_line() -> list[str]:
 @click.option("--to", "last_date", help="Last date of the table (YYYY-MM-DD).")
 @click.option("--jobs", type=int, default=None,
               help="Worker processes (default: all cores).")
+@click.option("--cluster", metavar="ADDRESS|local-dask", default=None,
+              help="Run the per-file work on a Dask cluster: a scheduler address "
+                   "(tcp://host:8786) or local-dask (a Dask cluster of --jobs workers on this "
+                   "machine). Needs the extra rrkit[dask]; see docs/cluster.md.")
+@click.option("--time-limit", "time_limit_s", type=float, default=300.0, show_default=True,
+              metavar="SECONDS",
+              help="Per-file time limit: a file that takes longer is stopped and listed in "
+                   "errors.csv (0: no limit).")
+@click.option("--wait", "wait_s", type=float, default=0.0, show_default=True, metavar="SECONDS",
+              help="When another run is writing the same output folder, wait up to this long "
+                   "for it to finish instead of stopping at once.")
 @click.option("--progress/--no-progress", default=None,
               help="Progress bar (default: on a terminal for runs of more than 20 files).")
 def command(folder, outdir, manifest, pattern, window, tz, wake, pick, clean_method, psd,
             detrend, bands, baseline_days, baseline_lag, baseline_min, min_days, swc_sd,
-            first_date, last_date, jobs, progress) -> int:
+            first_date, last_date, jobs, cluster, time_limit_s, wait_s, progress) -> int:
     """One row per athlete per day from a folder of recordings, with baselines and flags.
 
     Finds the recordings under FOLDER (recursively), places each on a subject and a local
@@ -178,6 +189,9 @@ def command(folder, outdir, manifest, pattern, window, tz, wake, pick, clean_met
     wake_start, wake_end = _wake(wake)
     if jobs is not None and jobs < 1:
         raise InputError(f"--jobs must be at least 1; got {jobs}")
+    if not time_limit_s >= 0:
+        raise InputError(f"--time-limit must be 0 (none) or a number of seconds; got "
+                         f"{time_limit_s}")
     with _as_options():
         baselines = BaselineSettings(rolling_min_days=min_days, baseline_days=baseline_days,
                                      baseline_min_days=baseline_min,
@@ -191,7 +205,8 @@ def command(folder, outdir, manifest, pattern, window, tz, wake, pick, clean_met
         summary = run_daily(folder, outdir, manifest=manifest, pattern=pattern,
                             settings=settings, jobs=jobs, progress=progress,
                             first_date=first_date, last_date=last_date,
-                            command=_command_line())
+                            command=_command_line(), wait_s=wait_s,
+                            time_limit_s=time_limit_s or None, cluster=cluster)
     table = summary.table
     if summary.n_files == 0:
         click.echo(f"no recordings found under {folder} (files ending in .txt, .csv, .tsv, "
