@@ -117,11 +117,14 @@ def _load_nights(folder: Path, manifest, pattern, tz: str, reported: Path):
                                 "`rrkit daily --help`).")
 @click.option("--tz", default="UTC", show_default=True,
               help="Time zone of naive start times (IANA name such as Europe/Berlin).")
+@click.option("--by-subject", is_flag=True,
+              help="Bland-Altman figure: one marker per subject, with a legend (default: all "
+                   "points alike).")
 @click.option("--progress/--no-progress", default=None,
               help="Progress bar (default: only on a terminal).")
 @click.pass_context
 def command(ctx, reported_path, folder, outdir, metric, definition, clean_name, search, ratio,
-            multiplier, manifest, pattern, tz, progress) -> int:
+            multiplier, manifest, pattern, tz, by_subject, progress) -> int:
     """Agreement of a device's nightly values with values recomputed from the raw nights.
 
     Writes to OUTDIR: agreement_stats.csv (every statistic with its confidence interval),
@@ -185,8 +188,8 @@ def command(ctx, reported_path, folder, outdir, metric, definition, clean_name, 
     if search_text:
         text = search_text + "\n" + "=" * 78 + "\n\n" + text
     atomic_write_text(outdir / OUTPUTS["summary"], text, fsync=False)
-    res.plot(outdir / OUTPUTS["png"])
-    res.plot(outdir / OUTPUTS["svg"])
+    res.plot(outdir / OUTPUTS["png"], subjects=by_subject)
+    res.plot(outdir / OUTPUTS["svg"], subjects=by_subject)
     written += [OUTPUTS[k] for k in ("stats", "pairs", "reference", "summary", "png", "svg")]
     if problems:
         err = pd.DataFrame(problems, columns=["path", "error", "message"])
