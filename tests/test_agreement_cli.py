@@ -57,6 +57,14 @@ def test_agree_with_a_given_definition(night_folder, tmp_path, capsys):
     assert (out / "bland_altman.png").read_bytes()[:8] == b"\x89PNG\r\n\x1a\n"
     assert b"<svg" in (out / "bland_altman.svg").read_bytes()[:400]
     assert "limits of agreement" in (out / "agreement_summary.txt").read_text(encoding="utf-8")
+    # subjects in the figure only when asked: the two PNGs differ (markers and a legend)
+    plain = (out / "bland_altman.png").read_bytes()
+    out2 = tmp_path / "out2"
+    assert main(["agree", "--reported", str(night_folder / "reported.csv"), "--recordings",
+                 str(night_folder / "nights"), "--definition", "last-1h", "--tz",
+                 "Europe/Berlin", "--no-progress", "--by-subject", "-o", str(out2)]) == 0
+    capsys.readouterr()
+    assert (out2 / "bland_altman.png").read_bytes() != plain
     pairs = pd.read_csv(out / "agreement_pairs.csv")
     assert set(pairs["subject"]) == {"R0", "R1", "R2"}
     # nothing half-written left behind (temporary files start with a dot)

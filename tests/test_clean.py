@@ -436,7 +436,7 @@ def test_window_recomputes_the_audit():
 
 
 def test_frequent_ectopy_caution():
-    # source: simulated: 2% premature beats (~70 per hour) exceed 30 per hour (rrkit caution)
+    # source: simulated: 2% premature beats (~70 per hour) exceed 30 per hour (rrkit's level)
     base = simulate_rr(duration_s=900, seed=4)
     rec, _ = inject_artifacts(base, rates={"ectopic": 0.02}, seed=5)
     res = clean(rec)

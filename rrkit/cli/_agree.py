@@ -85,11 +85,14 @@ def _reference(reported, nights, search, definition, clean_name, metric, ratio, 
 @click.option("--cluster", metavar="ADDRESS|local-dask", default=None,
               help="Run the per-night computations on a Dask cluster (see rrkit daily "
                    "--cluster).")
+@click.option("--by-subject", is_flag=True,
+              help="Bland-Altman figure: one marker per subject, with a legend (default: all "
+                   "points alike).")
 @click.option("--progress/--no-progress", default=None,
               help="Progress bar (default: only on a terminal).")
 @click.pass_context
 def command(ctx, reported_path, folder, outdir, metric, definition, clean_name, search, ratio,
-            multiplier, manifest, pattern, tz, jobs, cluster, progress) -> int:
+            multiplier, manifest, pattern, tz, jobs, cluster, by_subject, progress) -> int:
     """Agreement of a device's nightly values with values recomputed from the raw nights.
 
     Writes to OUTDIR: agreement_stats.csv (every statistic with its confidence interval),
@@ -156,8 +159,8 @@ def command(ctx, reported_path, folder, outdir, metric, definition, clean_name, 
     if search_text:
         text = search_text + "\n" + "=" * 78 + "\n\n" + text
     atomic_write_text(outdir / OUTPUTS["summary"], text, fsync=False)
-    res.plot(outdir / OUTPUTS["png"])
-    res.plot(outdir / OUTPUTS["svg"])
+    res.plot(outdir / OUTPUTS["png"], subjects=by_subject)
+    res.plot(outdir / OUTPUTS["svg"], subjects=by_subject)
     written += [OUTPUTS[k] for k in ("stats", "pairs", "reference", "summary", "png", "svg")]
     if problems:
         err = pd.DataFrame(problems, columns=list(ERROR_COLUMNS))

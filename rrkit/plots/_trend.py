@@ -181,9 +181,10 @@ def athlete_trend(daily, subject: str, path=None, *, load=None, phases=None, bas
     if fl.any():
         y_raw = d.loc[fl, "ln_rmssd"].astype(float)
         inside = (y_raw >= y_lim[0]) & (y_raw <= y_lim[1])
-        ax.scatter(d.loc[fl, "date"][inside], y_raw[inside], s=26, facecolor="white",
-                   edgecolor=INK["dark"], lw=1.0, marker="D", zorder=3,
-                   label="flagged day (not in any mean)")
+        if inside.any():
+            ax.scatter(d.loc[fl, "date"][inside], y_raw[inside], s=26, facecolor="white",
+                       edgecolor=INK["dark"], lw=1.0, marker="D", zorder=3,
+                       label="flagged day (not in any mean)")
         for up, marker in ((True, "^"), (False, "v")):
             off = ~inside & ((y_raw > y_lim[1]) if up else (y_raw < y_lim[0]))
             if off.any():
