@@ -221,7 +221,8 @@ def analyze(
         absolute when the recording has a start time, else missing; ``notes`` joins every
         note with ``" | "``, `NOTE_SEPARATOR`), then every metric key of the requested
         domains. ``df.attrs`` holds
-        ``metrics_settings`` and ``clean_settings`` (plain dicts) and ``rrkit_version``. A spec
+        ``metrics_settings`` and ``clean_settings`` (plain dicts), ``rrkit_version`` and
+        ``interval_name`` (``"RR"``, or ``"pulse-to-pulse"`` for pulse-derived input). A spec
         (or an item of a list of specs) that yields no window inside the recording gives one row
         of NaN, window ``"none"``, saying so.
 
@@ -250,6 +251,7 @@ def analyze(
     df.attrs["metrics_settings"] = s.to_dict()
     df.attrs["clean_settings"] = None if cr is None else dict(cr.settings.to_dict())
     df.attrs["rrkit_version"] = s.version
+    df.attrs["interval_name"] = rec.info.interval_name
     return df
 
 

@@ -22,6 +22,7 @@ import click
 
 from ..analysis import NOTE_SEPARATOR
 from ..errors import InputError
+from ..recording import interval_name
 from ..windows import SYNTAX_HELP
 from . import error_line
 from ._options import reading_options
@@ -100,7 +101,7 @@ def command(files, window, clean_method, psd, bands, fmt, output, reading, start
         fmt = {".csv": "csv", ".json": "json"}.get(suffix, "table")
     if progress is None:
         progress = sys.stderr.isatty()
-    tables, failed = [], 0
+    tables, failed, pulse = [], 0, []
     for path in _iter_files(files, progress):
         try:
             rec = read(path, **reading)
@@ -109,13 +110,18 @@ def command(files, window, clean_method, psd, bands, fmt, output, reading, start
             tables.append(analyze(rec, windows=spec, clean=None if clean_method == "none"
                                   else clean_method, psd=psd, bands=band_map,
                                   progress=progress and len(files) == 1))
+            if rec.info.pulse_derived:
+                pulse.append((path.name, interval_name(rec)))
         except InputError as exc:
             failed += 1
             click.echo(f"rrkit: error: {error_line(exc, 'analyze')}", err=True)
     if not tables:
         return 2
     df = pd.concat(tables, ignore_index=True) if len(tables) > 1 else tables[0]
-    text = _render(df, fmt, _provenance(tables[0]))
+    # what the intervals are, per file: a column in csv and json, one line above a table
+    df.insert(1, "intervals", [interval_name(t) for t in tables for _ in range(len(t))])
+    said = _intervals_line(pulse, len(tables))
+    text = _render(df, fmt, _provenance(tables[0]), said)
     if output is not None:
         output.write_text(text, encoding="utf-8")
         click.echo(f"{len(df)} windows from {len(tables)} file(s) -> {output}", err=True)
@@ -163,7 +169,7 @@ def _provenance(df) -> dict:
             "clean": df.attrs.get("clean_settings")}
 
 
-def _render(df, fmt: str, settings: dict | None = None) -> str:
+def _render(df, fmt: str, settings: dict | None = None, intervals_line: str | None = None) -> str:
     if fmt == "csv":
         from ..batch import neutralize_cells
 
@@ -175,7 +181,7 @@ def _render(df, fmt: str, settings: dict | None = None) -> str:
             for rec in records:
                 rec["settings"] = settings
         return json.dumps(records, indent=2, allow_nan=False) + "\n"
-    return _table(df)
+    return _table(df, intervals_line)
 
 
 def _clean_value(v):
@@ -210,7 +216,18 @@ def _records(df) -> list[dict]:
     return out
 
 
-def _table(df) -> str:
+def _intervals_line(pulse: list[tuple[str, str]], n_files: int) -> str | None:
+    """The one line above a table naming the files read from a pulse wave (``pulse``: their
+    (file name, interval name)); None when there are none (every file holds RR intervals)."""
+    if not pulse:
+        return None
+    name = pulse[0][1]
+    which = "all files" if len(pulse) == n_files else ", ".join(f for f, _ in pulse)
+    return (f"intervals: {name} ({which}, read from a pulse wave): the metrics describe "
+            f"{name} intervals, not RR intervals")
+
+
+def _table(df, intervals_line: str | None = None) -> str:
     import pandas as pd
 
     view = pd.DataFrame({
@@ -234,6 +251,8 @@ def _table(df) -> str:
             view[col] = [("-" if not isinstance(v, (int, float)) or not math.isfinite(v)
                           else f.format(v)) for v in view[col]]
     lines = [view.to_string(index=False)]
+    if intervals_line is not None:
+        lines.insert(0, intervals_line)
     by_text: dict[str, list[str]] = {}
     several = len(set(view["source"])) > 1
     for src, w, n in zip(view["source"], df["window"], df["notes"], strict=True):

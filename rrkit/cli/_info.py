@@ -18,7 +18,7 @@ import numpy as np
 
 from ..errors import InputError, QualityWarning
 from ..io import read
-from ..recording import Recording
+from ..recording import Recording, interval_name
 from . import error_line
 from ._options import reading_options
 
@@ -100,7 +100,7 @@ def describe(rec: Recording) -> list[tuple[str, str]]:
         rows.append(("times", str(ex["timestamps"])))
     if info.pulse_derived:
         why = ex.get("pulse_derived_by", info.kind)
-        rows.append(("intervals", f"pulse-to-pulse, not RR ({why})"))
+        rows.append(("intervals", f"{interval_name(info)}, not RR ({why})"))
     if "detector" in ex and info.kind == "ppg":
         found = 100 * ex.get("detection_coverage", 0)
         rows.append(("PPG", f"detector {ex['detector']}; {found:.1f}% of the pulses the median "
