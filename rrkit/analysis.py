@@ -16,6 +16,7 @@ from typing import Any
 
 import numpy as np
 
+from ._breathing import window_breathing_hz
 from ._plain import fields_plain
 from ._validation import check_option, check_range
 from .clean import CleanResult, CleanSettings
@@ -129,6 +130,14 @@ def window_rows(
         Keys `ROW_FIELDS` then every metric key of ``settings.domains``. ``notes`` joins the
         window's notes (clipping, stable stretch, the cleaning's caution, the metrics' notes)
         with `NOTE_SEPARATOR`.
+
+    Notes
+    -----
+    The breathing rate of a window (for ``resp_hz`` and the breathing note) is the one given
+    with it (an events table's ``breathing_hz`` or ``breaths_per_min``), else, for a recording
+    read from an ECG, the one measured from its R-wave amplitude at read time
+    (``ReadInfo.extra["breathing_series"]``, `rrkit._breathing`); else none, and the spectrum
+    alone claims no breathing.
     """
     s = settings if settings is not None else MetricsSettings()
     if not isinstance(s, MetricsSettings):
@@ -158,7 +167,7 @@ def window_rows(
     audits = [None if isinstance(w, _NoWindow) else _audit(rec, cr, w) for w in iterator]
     found = [i for i, a in enumerate(audits) if a is not None]
     results = _measure([audits[i][0] for i in found], s,
-                       [plan[i].breathing_hz for i in found])
+                       [_breathing_hz(rec, plan[i]) for i in found])
     by_index = dict(zip(found, results, strict=True))
     rows = []
     for i, w in enumerate(plan):
@@ -168,6 +177,14 @@ def window_rows(
         else:
             rows.append(_row(rec, w, audits[i][1], by_index[i], keys, quality))
     return rows
+
+
+def _breathing_hz(rec: Recording, w: Window) -> float | None:
+    """The window's breathing rate: the one given with the window (an events table) always
+    wins; else the one measured from the ECG at read time (`rrkit._breathing`), if any."""
+    if w.breathing_hz is not None:
+        return w.breathing_hz
+    return window_breathing_hz(rec.info.extra, w.start_s, w.end_s)
 
 
 def _measure(parts, s: MetricsSettings, breathing_hz):
@@ -221,7 +238,8 @@ def analyze(
         absolute when the recording has a start time, else missing; ``notes`` joins every
         note with ``" | "``, `NOTE_SEPARATOR`), then every metric key of the requested
         domains. ``df.attrs`` holds
-        ``metrics_settings`` and ``clean_settings`` (plain dicts) and ``rrkit_version``. A spec
+        ``metrics_settings`` and ``clean_settings`` (plain dicts), ``rrkit_version`` and
+        ``interval_name`` (``"RR"``, or ``"pulse-to-pulse"`` for pulse-derived input). A spec
         (or an item of a list of specs) that yields no window inside the recording gives one row
         of NaN, window ``"none"``, saying so.
 
@@ -250,6 +268,7 @@ def analyze(
     df.attrs["metrics_settings"] = s.to_dict()
     df.attrs["clean_settings"] = None if cr is None else dict(cr.settings.to_dict())
     df.attrs["rrkit_version"] = s.version
+    df.attrs["interval_name"] = rec.info.interval_name
     return df
 
 

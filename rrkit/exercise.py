@@ -148,6 +148,9 @@ class RampResult:
     settings : RampSettings
     caution : str
         `RAMP_CAUTION`.
+    interval_name : str
+        ``"RR"``, or ``"pulse-to-pulse"`` when the test was recorded from a pulse wave
+        (`rrkit.recording.interval_name`).
     """
 
     windows: Any
@@ -155,10 +158,12 @@ class RampResult:
     fits: dict = field(default_factory=dict)
     settings: RampSettings = field(default_factory=RampSettings)
     caution: str = RAMP_CAUTION
+    interval_name: str = "RR"
 
     def provenance(self) -> dict[str, Any]:
         """Settings and version, for the files the command writes."""
-        return {"rrkit": __version__, "settings": self.settings.to_dict(), "fits": self.fits}
+        return {"rrkit": __version__, "settings": self.settings.to_dict(), "fits": self.fits,
+                "intervals": self.interval_name}
 
 
 def _artifact_beats_pct(cr: CleanResult | None, start_s, end_s, n_beats) -> np.ndarray:
@@ -411,4 +416,4 @@ def ramp_test(
                            "hr_bpm" if col == "mean_hr_bpm" else col, unit, s, block, rel, noisy)
         rows += r
         fits[f["axis"]] = f
-    return RampResult(out, pd.DataFrame(rows), fits, s)
+    return RampResult(out, pd.DataFrame(rows), fits, s, interval_name=table.attrs["interval_name"])

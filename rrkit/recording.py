@@ -26,7 +26,7 @@ import numpy as np
 from ._validation import as_float_array
 from .errors import InputError
 
-__all__ = ["Recording", "ReadInfo"]
+__all__ = ["ReadInfo", "Recording", "interval_name"]
 
 # |diff(beat_times_s) * 1000 - rr_ms| allowed, in ms: float rounding of a cumulative sum over a
 # million beats stays below 1e-6 ms; anything larger means the two arrays disagree.
@@ -87,6 +87,43 @@ class ReadInfo:
     def __reduce__(self):
         return (_rebuild_info, (self.kind, self.kind_decided_by, self.unit, self.unit_decided_by,
                                 self.fs_hz, self.column, dict(self.extra)))
+
+
+def interval_name(source) -> str:
+    """What the intervals of ``source`` are called in labels and texts: ``"RR"`` or
+    ``"pulse-to-pulse"`` (`ReadInfo.interval_name`).
+
+    The one answer every output asks (table headers, audits, figure titles and axes), so that a
+    recording read from a pulse wave is never described as RR intervals.
+
+    Parameters
+    ----------
+    source : ReadInfo, Recording, or a result of a later stage
+        A `ReadInfo`; a `Recording` (its ``info``); a cleaning result (its ``input``); or any
+        result that carries the answer as an ``interval_name`` attribute or, for a table, in
+        ``attrs["interval_name"]``. Anything else (an array, None) is ``"RR"``.
+
+    Examples
+    --------
+    >>> interval_name(ReadInfo(kind="ppg"))
+    'pulse-to-pulse'
+    >>> interval_name(Recording.from_rr([800, 810, 790]))
+    'RR'
+    """
+    if isinstance(source, ReadInfo):
+        return source.interval_name
+    if isinstance(source, Recording):
+        return source.info.interval_name
+    own = getattr(source, "interval_name", None)
+    if isinstance(own, str):
+        return own
+    attrs = getattr(source, "attrs", None)
+    if isinstance(attrs, Mapping) and isinstance(attrs.get("interval_name"), str):
+        return attrs["interval_name"]
+    inner = getattr(source, "input", None)
+    if isinstance(inner, Recording):
+        return inner.info.interval_name
+    return "RR"
 
 
 def _rebuild_info(kind, kind_by, unit, unit_by, fs_hz, column, extra):

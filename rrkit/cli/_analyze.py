@@ -21,8 +21,10 @@ from pathlib import Path
 
 import click
 
+from .._atomic import atomic_write_text
 from ..analysis import NOTE_SEPARATOR
 from ..errors import InputError
+from ..recording import interval_name
 from ..windows import SYNTAX_HELP
 from . import error_line
 from ._options import reading_options
@@ -111,10 +113,12 @@ def command(files, window, clean_method, psd, bands, fmt, output, reading, start
                             analyze_kw={"clean": None if clean_method == "none"
                                             else clean_method, "psd": psd, "bands": band_map,
                                             "progress": progress and len(files) == 1})
-    tables, failed = [], 0
-    for table, message in map_files(one, files, jobs=jobs, cluster=cluster,
-                                    progress=progress and len(files) > 1,
-                                    desc="analyze", on_lost=_lost):
+    tables, failed, pulse = [], 0, []
+    results = map_files(one, files, jobs=jobs, cluster=cluster,
+                        progress=progress and len(files) > 1, desc="analyze", on_lost=_lost)
+    for path, (table, message) in zip(files, results, strict=True):
+        if table is not None and interval_name(table) != "RR":
+            pulse.append((Path(path).name, interval_name(table)))
         if table is None:
             failed += 1
             click.echo(f"rrkit: error: {message}", err=True)
@@ -123,9 +127,12 @@ def command(files, window, clean_method, psd, bands, fmt, output, reading, start
     if not tables:
         return 2
     df = pd.concat(tables, ignore_index=True) if len(tables) > 1 else tables[0]
-    text = _render(df, fmt, _provenance(tables[0]))
+    # what the intervals are, per file: a column in csv and json, one line above a table
+    df.insert(1, "intervals", [interval_name(t) for t in tables for _ in range(len(t))])
+    said = _intervals_line(pulse, len(tables))
+    text = _render(df, fmt, _provenance(tables[0]), said)
     if output is not None:
-        output.write_text(text, encoding="utf-8")
+        atomic_write_text(output, text, fsync=False)
         click.echo(f"{len(df)} windows from {len(tables)} file(s) -> {output}", err=True)
     else:
         click.echo(text, nl=not text.endswith("\n"))
@@ -181,7 +188,7 @@ def _provenance(df) -> dict:
             "clean": df.attrs.get("clean_settings")}
 
 
-def _render(df, fmt: str, settings: dict | None = None) -> str:
+def _render(df, fmt: str, settings: dict | None = None, intervals_line: str | None = None) -> str:
     if fmt == "csv":
         from ..batch import neutralize_cells
 
@@ -193,7 +200,7 @@ def _render(df, fmt: str, settings: dict | None = None) -> str:
             for rec in records:
                 rec["settings"] = settings
         return json.dumps(records, indent=2, allow_nan=False) + "\n"
-    return _table(df)
+    return _table(df, intervals_line)
 
 
 def _clean_value(v):
@@ -228,7 +235,18 @@ def _records(df) -> list[dict]:
     return out
 
 
-def _table(df) -> str:
+def _intervals_line(pulse: list[tuple[str, str]], n_files: int) -> str | None:
+    """The one line above a table naming the files read from a pulse wave (``pulse``: their
+    (file name, interval name)); None when there are none (every file holds RR intervals)."""
+    if not pulse:
+        return None
+    name = pulse[0][1]
+    which = "all files" if len(pulse) == n_files else ", ".join(f for f, _ in pulse)
+    return (f"intervals: {name} ({which}, read from a pulse wave): the metrics describe "
+            f"{name} intervals, not RR intervals")
+
+
+def _table(df, intervals_line: str | None = None) -> str:
     import pandas as pd
 
     view = pd.DataFrame({
@@ -252,6 +270,8 @@ def _table(df) -> str:
             view[col] = [("-" if not isinstance(v, (int, float)) or not math.isfinite(v)
                           else f.format(v)) for v in view[col]]
     lines = [view.to_string(index=False)]
+    if intervals_line is not None:
+        lines.insert(0, intervals_line)
     by_text: dict[str, list[str]] = {}
     several = len(set(view["source"])) > 1
     for src, w, n in zip(view["source"], df["window"], df["notes"], strict=True):

@@ -17,6 +17,7 @@ from .._atomic import atomic_path
 from ..clean import METHODS, STRATEGIES, CleanResult, clean
 from ..errors import InputError
 from ..io import read, write_rr
+from ..recording import interval_name
 from ._options import reading_options
 
 _METHOD_NAMES = {
@@ -34,7 +35,7 @@ def summary_lines(result: CleanResult) -> list[str]:
     st = result.settings
     lines = [f"  {'method':<{_W}}{_METHOD_NAMES.get(st.method, st.method)}, "
              f"strategy {st.strategy}",
-             f"  {'intervals':<{_W}}{s.n_intervals}"
+             f"  {'intervals':<{_W}}{s.n_intervals} {interval_name(result)} intervals"
              + (f" (plus {int(result.input.gaps.sum())} gap intervals, left alone)"
                 if result.input.has_gaps else "")]
     from ..plots._diagnostic import audit_rows
@@ -113,7 +114,7 @@ def command(file: Path, method: str, strategy: str, out: Path | None, rr_out: Pa
         click.echo(f"  {'table':<{_W}}{out}")
     if rr_out is not None:
         write_rr(rr_out, result.recording)
-        click.echo(f"  {'corrected RR':<{_W}}{rr_out}")
+        click.echo(f"  {'rr-out':<{_W}}corrected {interval_name(result)} intervals -> {rr_out}")
     if result.summary.caution:
         click.echo(f"caution: {result.summary.caution}")
     return 0

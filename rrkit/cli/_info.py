@@ -18,7 +18,7 @@ import numpy as np
 
 from ..errors import InputError, QualityWarning
 from ..io import read
-from ..recording import Recording
+from ..recording import Recording, interval_name
 from . import error_line
 from ._options import reading_options
 
@@ -52,6 +52,17 @@ def _hr_range(rec: Recording) -> str:
                 "artifact correction was not possible)")
     return (f"{c.min():.0f} to {c.max():.0f} bpm, median {np.median(c):.0f} bpm after artifact "
             f"correction (default cleaning); as read {raw} (from {ok.size} intervals)")
+
+
+def _breathing_text(ex) -> str:
+    """The breathing rate measured from the ECG at read time (ReadInfo.extra)."""
+    series = ex.get("breathing_series") or ()
+    n_rate = sum(hz is not None for _, _, hz in series)
+    found = f"{n_rate} of {len(series)} stretches with a clear rhythm"
+    hz = ex.get("breathing_hz")
+    if hz is None:
+        return f"no steady rate ({found}), {ex['breathing_measured_by']}"
+    return f"{60 * hz:.1f}/min ({hz:.3f} Hz), {ex['breathing_measured_by']}; {found}"
 
 
 def _yes_no(flag) -> str:
@@ -100,7 +111,7 @@ def describe(rec: Recording) -> list[tuple[str, str]]:
         rows.append(("times", str(ex["timestamps"])))
     if info.pulse_derived:
         why = ex.get("pulse_derived_by", info.kind)
-        rows.append(("intervals", f"pulse-to-pulse, not RR ({why})"))
+        rows.append(("intervals", f"{interval_name(info)}, not RR ({why})"))
     if "detector" in ex and info.kind == "ppg":
         found = 100 * ex.get("detection_coverage", 0)
         rows.append(("PPG", f"detector {ex['detector']}; {found:.1f}% of the pulses the median "
@@ -110,6 +121,8 @@ def describe(rec: Recording) -> list[tuple[str, str]]:
             f"detector {ex['detector']}; inverted lead {_yes_no(ex.get('inverted_lead'))}; "
             f"{100 * ex.get('detection_quality', 0):.1f}% of beats match the median beat; "
             f"{ex.get('usable_signal_pct', 0):.1f}% of the signal usable")))
+    if "breathing_measured_by" in ex:
+        rows.append(("breathing", _breathing_text(ex)))
     if "beat_symbol_counts" in ex:
         rows.append(("symbols", str(ex["beat_symbol_counts"])))
     skipped = ex.get("non_beat_annotations_skipped") or ex.get("non_beat_rows_skipped")

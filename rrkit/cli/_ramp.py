@@ -107,6 +107,9 @@ def command(file: Path, stages: Path | None, window: str, levels: str, max_artif
     result = ramp_test(rec, loads=loads, clean=clean_method, settings=settings)
     w = result.windows
     click.echo(str(file))
+    click.echo(f"  {'intervals':<{_W}}{result.interval_name}"
+               + (" (read from a pulse wave; the alpha1 levels were set on ECG or chest-strap "
+                  "RR intervals)" if rec.info.pulse_derived else ""))
     click.echo(f"  {'windows':<{_W}}{len(w)} of {window}, {int(w['valid'].sum())} valid, "
                f"{int(w['in_fit'].sum())} in the descending part")
     click.echo(f"  {'heart rate':<{_W}}{w['mean_hr_bpm'].min():.0f} to "

@@ -15,6 +15,8 @@ Steps
 4. R peaks per segment with ``neurokit2.ecg_peaks(method=detector)``; the default detector is
    ``"neurokit"`` (neurokit2's own default: QRS slope envelope with adaptive thresholds).
 5. Intervals that span an unusable stretch are marked as gaps in the `Recording`.
+   The R-wave amplitudes of the cleaned lead give the breathing-rate series
+   (`rrkit._breathing`), kept in ``ReadInfo.extra`` for the window table.
 6. Detection quality: the share of detected beats whose QRS (±0.1 s around the largest
    deflection within 0.05 s of the detected peak) correlates at r >= 0.8 with the median beat
    of the record, plus the share of usable signal. A low figure
@@ -29,6 +31,7 @@ from typing import Any
 
 import numpy as np
 
+from .._breathing import breathing_series
 from ..errors import InputError, QualityWarning
 from ..recording import ReadInfo, Recording
 from ._checks import MIN_INTERVALS, check_signal
@@ -162,7 +165,8 @@ def _quality(segments_clean: list[np.ndarray], seg_peaks: list[np.ndarray], fs: 
 
 
 def detect_beats(signal, *, fs_hz: float | None, detector: str = DEFAULT_DETECTOR,
-                 path: str | None = None, what: str = "ECG") -> tuple[np.ndarray, np.ndarray, dict]:
+                 path: str | None = None, what: str = "ECG",
+                 breathing: bool = True) -> tuple[np.ndarray, np.ndarray, dict]:
     """Detect R peaks in one ECG lead.
 
     Parameters
@@ -175,6 +179,9 @@ def detect_beats(signal, *, fs_hz: float | None, detector: str = DEFAULT_DETECTO
         One of `DETECTORS` (default ``"neurokit"``).
     path : str, optional
         File name for messages.
+    breathing : bool
+        Also measure the breathing-rate series from the R-wave amplitude of the cleaned lead
+        (`rrkit._breathing.breathing_series`, while the signal is at hand; default True).
 
     Returns
     -------
@@ -183,7 +190,8 @@ def detect_beats(signal, *, fs_hz: float | None, detector: str = DEFAULT_DETECTO
     gaps : numpy.ndarray of bool, shape (len(peaks) - 1,)
         True for intervals spanning an unusable stretch.
     extra : dict
-        Detector, inverted lead, detection quality, usable share, flat and missing seconds.
+        Detector, inverted lead, detection quality, usable share, flat and missing seconds;
+        with ``breathing``, ``breathing_hz``, ``breathing_series`` and ``breathing_measured_by``.
 
     Raises
     ------
@@ -233,6 +241,9 @@ def detect_beats(signal, *, fs_hz: float | None, detector: str = DEFAULT_DETECTO
     quality = _quality(cleaned, seg_peaks, fs)
     extra["detection_quality"] = round(quality, 4)
     extra["n_gaps"] = int(gaps.sum())
+    if breathing:  # the R-wave amplitudes exist only now, on the cleaned (upright) lead
+        amp = np.concatenate([x[p] for x, p in zip(cleaned, seg_peaks, strict=True)])
+        extra.update(breathing_series(peaks / fs, amp, gaps=gaps))
     if inverted:
         logger.info("rrkit: %s: the ECG lead is inverted; turned it over before detection",
                     path or what)

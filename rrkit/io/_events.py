@@ -6,14 +6,21 @@ turns its rows into analysis windows.
 
 from __future__ import annotations
 
-import csv
 import math
 from pathlib import Path
 from typing import Any
 
 from ..errors import InputError
+from ._csvrows import csv_rows, read_table_text
 
 __all__ = ["read_events_table"]
+
+
+def _check_header(header: list[str], cells: list[str], *, path: Path, line: int) -> None:
+    missing = [c for c in ("label", "start_s", "end_s") if c not in header]
+    if missing:
+        raise InputError(f"events table header must name label, start_s, end_s; "
+                         f"found {cells!r} (missing {missing!r})", path=path, line=line)
 
 
 def read_events_table(path) -> list[dict[str, Any]]:
@@ -25,28 +32,12 @@ def read_events_table(path) -> list[dict[str, Any]]:
         Naming the file and line of a missing column, a bad number or ``end_s <= start_s``.
     """
     path = Path(path)
-    try:
-        text = path.read_text(encoding="utf-8-sig")
-    except FileNotFoundError:
-        raise InputError("events table not found", path=path) from None
-    header = None
+    if not path.is_file():
+        raise InputError("events table not found", path=path)
+    text = read_table_text(path, what="events table")
+    header: list[str] = []
     rows: list[dict[str, Any]] = []
-    for lineno, cells in enumerate(csv.reader(text.splitlines()), start=1):
-        if not cells or all(not c.strip() for c in cells) or cells[0].lstrip().startswith("#"):
-            continue
-        cells = [c.strip() for c in cells]
-        if header is None:
-            header = [c.lower() for c in cells]
-            missing = [c for c in ("label", "start_s", "end_s") if c not in header]
-            if missing:
-                raise InputError(f"events table header must name label, start_s, end_s; "
-                                 f"found {cells!r} (missing {missing!r})",
-                                 path=path, line=lineno)
-            continue
-        if len(cells) != len(header):
-            raise InputError(f"expected {len(header)} columns ({','.join(header)}); found "
-                             f"{len(cells)}: {cells!r}", path=path, line=lineno)
-        row = dict(zip(header, cells, strict=True))
+    for lineno, row in csv_rows(text, path=path, check_header=_check_header, header_out=header):
         try:
             start = float(row["start_s"])
             end = float(row["end_s"])
@@ -72,7 +63,7 @@ def read_events_table(path) -> list[dict[str, Any]]:
             raise InputError("label is empty", path=path, line=lineno)
         rows.append({"label": row["label"], "start_s": start, "end_s": end,
                      "breathing_hz": breathing, "line": lineno})
-    if header is None:
+    if not header:
         raise InputError("events table is empty; expected a header label,start_s,end_s",
                          path=path)
     return rows

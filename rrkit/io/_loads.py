@@ -15,7 +15,6 @@ order; the last load holds to the end of the recording.
 
 from __future__ import annotations
 
-import csv
 import math
 from dataclasses import dataclass
 from pathlib import Path
@@ -23,6 +22,7 @@ from pathlib import Path
 import numpy as np
 
 from ..errors import InputError
+from ._csvrows import csv_rows, read_table_text
 
 __all__ = ["LOAD_COLUMNS", "Loads", "read_loads"]
 
@@ -110,6 +110,22 @@ def _seconds(text: str) -> float:
     return out
 
 
+def _columns(header: list[str]) -> tuple[str, str]:
+    """(time column, load column) named by a header; empty strings when it lacks one."""
+    tcol = next((c for c in ("time_s", "time") if c in header), "")
+    found = [c for c in LOAD_COLUMNS if c in header]
+    return tcol, (found[0] if len(found) == 1 else "")
+
+
+def _check_header(header: list[str], cells: list[str], *, path: Path, line: int) -> None:
+    tcol, lcol = _columns(header)
+    if not tcol or not lcol:
+        raise InputError(
+            f"load table header must name a time column (time_s, or time as mm:ss) and "
+            f"exactly one load column ({' or '.join(LOAD_COLUMNS)}); found {cells!r}",
+            path=path, line=line)
+
+
 def read_loads(path) -> Loads:
     """Read an exercise test's load table (``time_s`` or ``time``, and ``power_w`` or
     ``speed_kmh``).
@@ -140,33 +156,12 @@ def read_loads(path) -> Loads:
     path = Path(path)
     if not path.is_file():
         raise InputError("load table not found (expected a CSV file)", path=path)
-    try:
-        text = path.read_text(encoding="utf-8-sig")
-    except UnicodeDecodeError:
-        raise InputError("load table is not UTF-8 text", path=path) from None
-    header: list[str] | None = None
+    text = read_table_text(path, what="load table")
+    header: list[str] = []
     times: list[float] = []
     values: list[float] = []
-    tcol = lcol = ""
-    for lineno, cells in enumerate(csv.reader(text.splitlines()), start=1):
-        if not cells or all(not c.strip() for c in cells) or cells[0].lstrip().startswith("#"):
-            continue
-        cells = [c.strip() for c in cells]
-        if header is None:
-            header = [c.lower() for c in cells]
-            tcol = next((c for c in ("time_s", "time") if c in header), "")
-            found = [c for c in LOAD_COLUMNS if c in header]
-            if not tcol or len(found) != 1:
-                raise InputError(
-                    f"load table header must name a time column (time_s, or time as mm:ss) and "
-                    f"exactly one load column ({' or '.join(LOAD_COLUMNS)}); found {cells!r}",
-                    path=path, line=lineno)
-            lcol = found[0]
-            continue
-        if len(cells) != len(header):
-            raise InputError(f"expected {len(header)} columns ({','.join(header)}); found "
-                             f"{len(cells)}: {cells!r}", path=path, line=lineno)
-        row = dict(zip(header, cells, strict=True))
+    for lineno, row in csv_rows(text, path=path, check_header=_check_header, header_out=header):
+        tcol, lcol = _columns(header)
         try:
             t = float(row[tcol]) if tcol == "time_s" else _seconds(row[tcol])
         except ValueError:
@@ -188,7 +183,7 @@ def read_loads(path) -> Loads:
                              path=path, line=lineno)
         times.append(t)
         values.append(v)
-    if header is None or not times:
+    if not times:
         raise InputError("load table has no rows; expected a header (time_s,power_w) and one "
                          "row per stage", path=path)
-    return Loads(np.array(times), np.array(values), lcol, source=str(path))
+    return Loads(np.array(times), np.array(values), _columns(header)[1], source=str(path))

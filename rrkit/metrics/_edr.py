@@ -6,10 +6,11 @@ intervals, so it can tell slow breathing from a ~0.1 Hz oscillation of heart rat
 baroreflex rhythm), which the RR spectrum alone cannot. The R peaks come from rrkit's ECG
 detection (neurokit2 ``ecg_clean`` and ``ecg_peaks``); the amplitudes are read from the cleaned
 lead at the peaks, put on an even 4 Hz grid and their spectrum searched for one dominant peak
-inside `PLAUSIBLE_BREATHING_HZ`.
+inside `PLAUSIBLE_BREATHING_HZ` (`rrkit._breathing`, the one computation).
 
-The rate returned is a measurement to pass on as a *given* breathing rate
-(``rrkit.metrics(..., breathing_hz=rate)``, or a ``breathing_hz`` column of an events table).
+`rrkit.read` already measures a rate series of every ECG it reads (``ReadInfo.extra``), which the
+window table uses; this function measures a stretch of an ECG held in memory, to pass on as a
+breathing rate (``rrkit.metrics(..., breathing_hz=rate)``).
 
 References
 ----------
@@ -21,14 +22,10 @@ from __future__ import annotations
 
 import numpy as np
 
+from .._breathing import amplitude_breathing_hz
 from ..errors import InputError
-from .spectral import PLAUSIBLE_BREATHING_HZ
 
 __all__ = ["ecg_breathing_hz"]
-
-_GRID_HZ = 4.0
-#: share of the plausible-band power that the peak (+/- 0.03 Hz) must hold (rrkit's choice)
-_MIN_SHARE = 0.35
 
 
 def ecg_breathing_hz(ecg, *, fs_hz: float, start_s: float | None = None,
@@ -63,9 +60,6 @@ def ecg_breathing_hz(ecg, *, fs_hz: float, start_s: float | None = None,
     >>> round(ecg_breathing_hz(ecg, fs_hz=fs), 2)         # doctest: +SKIP
     0.25
     """
-    from scipy.interpolate import CubicSpline
-    from scipy.signal import detrend, welch
-
     from ..io._ecg import _clean, detect_beats
 
     sig = np.asarray(ecg, dtype=np.float64).ravel()
@@ -75,22 +69,9 @@ def ecg_breathing_hz(ecg, *, fs_hz: float, start_s: float | None = None,
         raise InputError(f"start_s/end_s ({start_s}, {end_s}) lie outside the ECG of "
                          f"{sig.size / fs_hz:.1f} s")
     part = sig[a:b]
-    peaks, _gaps, info = detect_beats(part, fs_hz=fs_hz, detector=detector, what="ECG")
+    peaks, _gaps, info = detect_beats(part, fs_hz=fs_hz, detector=detector, what="ECG",
+                                      breathing=False)
     lead = _clean(part, fs_hz)
     if info.get("inverted_lead"):
         lead = -lead
-    t = peaks / fs_hz
-    amp = lead[peaks]
-    if t.size < 8 or t[-1] - t[0] < 30.0:
-        return None
-    grid = np.arange(t[0], t[-1], 1.0 / _GRID_HZ)
-    x = detrend(CubicSpline(t, amp)(grid))
-    f, p = welch(x, fs=_GRID_HZ, nperseg=min(x.size, int(64 * _GRID_HZ)), detrend="constant")
-    lo, hi = PLAUSIBLE_BREATHING_HZ
-    band = (f >= lo) & (f <= hi)
-    if not band.any() or p[band].sum() <= 0:
-        return None
-    fb, pb = f[band], p[band]
-    fpk = float(fb[int(pb.argmax())])
-    share = float(pb[np.abs(fb - fpk) <= 0.03].sum() / pb.sum())
-    return fpk if share >= _MIN_SHARE else None
+    return amplitude_breathing_hz(peaks / fs_hz, lead[peaks])

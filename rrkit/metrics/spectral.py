@@ -50,6 +50,7 @@ from functools import lru_cache
 
 import numpy as np
 
+from .._breathing import PLAUSIBLE_BREATHING_HZ
 from ._ragged import Ragged
 from ._settings import MetricsSettings
 from ._spline import spline_many, spline_on_grid
@@ -500,11 +501,6 @@ def frequency_values(est: PsdEstimate | None, row: dict | None, runs_longest_s: 
     return out, notes
 
 
-#: Breathing rates rrkit will report or use, Hz: 3 to 42 breaths per minute (rrkit's choice: it
-#: covers paced slow breathing, about 4-7 per minute, resting rates of 12-20 and light exercise;
-#: a spectral peak outside it is not called a breathing rate).
-PLAUSIBLE_BREATHING_HZ = (0.05, 0.70)
-
 
 def _per_min(hz: float) -> str:
     return f"{hz * 60:.1f}/min"
@@ -530,6 +526,8 @@ def _breathing(est: PsdEstimate, row: dict, s: MetricsSettings, out: dict,
         if share >= s.resp_peak_share:
             dominant = (float(row["low_peak"]), share)
     lo_ok, hi_ok = PLAUSIBLE_BREATHING_HZ
+    # a measured rate says how it was measured (rrkit._breathing.MeasuredHz); a plain one is given
+    how = getattr(breathing_hz, "how", "given")
     if breathing_hz is not None and not lo_ok <= breathing_hz <= hi_ok:
         notes.append(f"the given breathing rate {breathing_hz:.3f} Hz ({_per_min(breathing_hz)}) "
                      f"is outside the plausible {_per_min(lo_ok)} to {_per_min(hi_ok)} and was "
@@ -541,14 +539,14 @@ def _breathing(est: PsdEstimate, row: dict, s: MetricsSettings, out: dict,
                              min(b.hf[0], breathing_hz + 0.03)))
             out["resp_hz"] = pk if np.isfinite(pk) else breathing_hz
             notes.append(
-                f"breathing at {breathing_hz:.3f} Hz ({_per_min(breathing_hz)}, given) lies below "
+                f"breathing at {breathing_hz:.3f} Hz ({_per_min(breathing_hz)}, {how}) lies below "
                 f"the HF band ({b.hf[0]:g} Hz): respiratory power falls into LF, so LF, HF and "
                 f"LF/HF do not carry their usual meaning")
         elif dominant is not None and abs(dominant[0] - breathing_hz) > 0.03:
             notes.append(
                 f"a dominant narrow peak at {dominant[0]:.3f} Hz below the HF band holds "
                 f"{100 * dominant[1]:.0f}% of the total power while breathing is at "
-                f"{breathing_hz:.3f} Hz ({_per_min(breathing_hz)}, given): a strong oscillation "
+                f"{breathing_hz:.3f} Hz ({_per_min(breathing_hz)}, {how}): a strong oscillation "
                 f"of heart rate (such as the baroreflex rhythm), not breathing")
     elif dominant is not None:
         fpk, share = dominant

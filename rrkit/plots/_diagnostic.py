@@ -13,6 +13,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
+from ..recording import interval_name
 from ._style import INK, LABEL_STYLE, new_figure, save
 
 __all__ = ["AuditRow", "audit_rows", "recording_diagnostic"]
@@ -125,7 +126,9 @@ def recording_diagnostic(result, path=None, *, window_s=None, psd: str = "welch"
     Notes
     -----
     Left, large: the tachogram, RR interval (ms) against time (s), as read (light) and as
-    corrected (dark); intervals beyond the axis are drawn as arrows at its edge. Beneath it the
+    corrected (dark; pulse-to-pulse interval for pulse-derived input,
+    `rrkit.recording.interval_name`, in the title and on the axes); intervals beyond the axis
+    are drawn as arrows at its edge. Beneath it the
     audit strip, one row per artifact class that cleaning found, each mark at the beat or
     interval concerned and each row counted (`audit_rows`). Right: the power spectral density
     (ms²/Hz) as an outline with the band edges marked, and beside it a small table of the band
@@ -162,7 +165,8 @@ def recording_diagnostic(result, path=None, *, window_s=None, psd: str = "welch"
         title = " - ".join(bits) if bits else "recording"
     s = part.summary
     where = "analysis window" if window_s is not None else "whole recording"
-    head = (f"{title}\n{where}: {s.artifact_pct:.1f}% of intervals artifacts, "
+    head = (f"{title}\n{interval_name(result)} intervals, {where}: {s.artifact_pct:.1f}% of "
+            f"intervals artifacts, "
             f"{s.corrected_pct:.1f}% corrected, quality {s.quality}"
             + (f" ({s.quality_reason})" if s.quality_reason else ""))
     cautioned = s if s.caution else result.summary if result.summary.caution else None
@@ -225,7 +229,7 @@ def _tachogram(ax, result, window_s) -> None:
                 solid_capstyle="butt", clip_on=False,
                 label=f"analysis window {window_s[0]:g}-{window_s[1]:g} s")
         ax.set_ylim(y0, y1)
-    ax.set_ylabel("RR interval (ms)")
+    ax.set_ylabel(f"{interval_name(raw)} interval (ms)")
     ax.set_title("Intervals as read and corrected", loc="left", fontsize=10, pad=12)
     ax.tick_params(labelbottom=False)
     ax.grid(axis="y", color=INK["faint"], lw=0.6)
@@ -341,8 +345,9 @@ def _return_map(ax, rec, values) -> None:
         ax.set_xlim(lo - pad, hi + pad)
         ax.set_ylim(lo - pad, hi + pad)
     ax.set_aspect("equal", adjustable="box")
-    ax.set_xlabel("RR[n] (ms)")
-    ax.set_ylabel("RR[n+1] (ms)")
+    name = interval_name(rec)
+    ax.set_xlabel(f"{name} interval n (ms)")
+    ax.set_ylabel(f"{name} interval n+1 (ms)")
     sd = (f": SD1 {sd1:.1f} ms, SD2 {sd2:.1f} ms" if np.isfinite(sd1) and np.isfinite(sd2)
           else "")
     ax.set_title(f"Return map, corrected{sd}", loc="left", fontsize=9.5)

@@ -8,6 +8,7 @@ import math
 import numpy as np
 
 from ..errors import InputError
+from ..recording import interval_name
 from ._style import OKABE_ITO, new_figure, save
 
 __all__ = ["ramp_figure"]
@@ -128,7 +129,8 @@ def ramp_figure(result, path=None, *, title: str | None = None, dpi: int = 120):
         labels.append(f"{'power' if unit == 'W' else 'speed'}")
     bx.legend(handles, labels, loc="upper left", bbox_to_anchor=(1.13, 1.0), fontsize=7.5,
               frameon=False)
-    fig.suptitle(title or "Exercise test: DFA alpha1 against heart rate", fontsize=11)
+    head = title or "Exercise test: DFA alpha1 against heart rate"
+    fig.suptitle(f"{head}\nfrom {interval_name(result)} intervals", fontsize=11)
     if path is not None:
         save(fig, path, dpi=dpi)
     return fig
