@@ -232,6 +232,9 @@ def _run_locked(root: Path, out: Path, *, manifest, pattern, settings: DailySett
     finally:
         if own:
             ex.close()
+    # a worker killed while writing its cache entry leaves a temporary file: all work is done
+    # now, so whatever temporary file is left in the cache belongs to nobody
+    remove_stale_temporaries(out / CACHE_DIR)
     if retried:
         log.warning("%d files were in flight on a worker that died and were retried: %s",
                     len(retried), ", ".join(sorted(retried)[:5])
