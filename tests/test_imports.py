@@ -22,6 +22,7 @@ PKG = Path(__file__).resolve().parents[1] / "rrkit"
 # Stage rank of each top-level part of the package (lower runs earlier in the pipeline).
 RANK = {
     "_version": 0, "errors": 0, "_validation": 0, "_atomic": 0, "_plain": 0, "_time": 0,
+    "_spline": 0,  # the one cubic spline: cleaning interpolates with it, spectra resample
     "recording": 1,
     "io": 2,
     "clean": 3,

@@ -1,8 +1,10 @@
-"""Cubic-spline resampling on a uniform grid, without per-call overhead.
+"""Cubic splines through many series at once, without per-call overhead.
 
-The same interpolant as ``scipy.interpolate.CubicSpline(x, y, bc_type="not-a-knot")`` (the test
-suite checks it to 1e-9), computed with one LAPACK tridiagonal solve (``dgtsv``) for the knot
-slopes and a vectorised Hermite evaluation. `spline_many` does many series at once: their
+The same interpolant as ``scipy.interpolate.CubicSpline(x, y, bc_type=...)`` with the
+``"not-a-knot"`` end conditions (the spectral resampling) or the ``"natural"`` ones (zero second
+derivative at both ends: the interpolation of the cleaning); the test suite checks both against
+scipy to 1e-9. Computed with one LAPACK tridiagonal solve (``dgtsv``) for the knot slopes and a
+vectorised Hermite evaluation. `spline_many` does many series at once: their
 systems laid end to end form one block-diagonal tridiagonal system (the couplings between
 blocks are zero, so the solve of each block is that of its own system), solved by one call.
 """
@@ -14,10 +16,10 @@ import numpy as np
 __all__ = ["spline_many", "spline_on_grid"]
 
 
-def _scipy_spline(x, y, grid):
+def _scipy_spline(x, y, grid, bc_type="not-a-knot"):
     from scipy.interpolate import CubicSpline
 
-    return CubicSpline(x, y, bc_type="not-a-knot")(grid)
+    return CubicSpline(x, y, bc_type=bc_type)(grid)
 
 
 def spline_on_grid(x: np.ndarray, y: np.ndarray, grid: np.ndarray) -> np.ndarray:
@@ -27,17 +29,38 @@ def spline_on_grid(x: np.ndarray, y: np.ndarray, grid: np.ndarray) -> np.ndarray
     return spline_many([x], [y], [grid])[0]
 
 
-def spline_many(xs: list[np.ndarray], ys: list[np.ndarray], grids: list[np.ndarray]
-                ) -> list[np.ndarray]:
-    """`spline_on_grid` of every series ``(xs[k], ys[k])`` at ``grids[k]`` (each with at least
-    4 knots), from one tridiagonal solve and one vectorised evaluation."""
+_MIN_KNOTS = {"not-a-knot": 4, "natural": 2}
+
+
+def spline_many(xs: list[np.ndarray], ys: list[np.ndarray], grids: list[np.ndarray], *,
+                bc_type: str = "not-a-knot") -> list[np.ndarray]:
+    """Cubic spline of every series ``(xs[k], ys[k])`` evaluated at ``grids[k]`` (inside the
+    series' knots), from one tridiagonal solve and one vectorised evaluation.
+
+    Parameters
+    ----------
+    xs, ys : list of numpy.ndarray
+        Knots (strictly increasing) and values of each series: at least 4 knots for
+        ``"not-a-knot"``, at least 2 for ``"natural"``.
+    grids : list of numpy.ndarray
+        Where to evaluate each series (points outside its knots get the end polynomial).
+    bc_type : {"not-a-knot", "natural"}
+        End conditions, as in `scipy.interpolate.CubicSpline`.
+
+    Returns
+    -------
+    list of numpy.ndarray, shaped as ``grids``
+    """
     from scipy.linalg.lapack import dgtsv
 
+    if bc_type not in _MIN_KNOTS:
+        raise ValueError(f"bc_type must be one of {sorted(_MIN_KNOTS)}, not {bc_type!r}")
     sizes = np.array([v.size for v in xs], dtype=np.int64)
     if sizes.size == 0:
         return []
-    if sizes.min() < 4:
-        raise ValueError("spline_many needs at least 4 knots per series")
+    if sizes.min() < _MIN_KNOTS[bc_type]:
+        raise ValueError(f"spline_many needs at least {_MIN_KNOTS[bc_type]} knots per series "
+                         f"for bc_type={bc_type!r}")
     off = np.concatenate(([0], np.cumsum(sizes)))
     x = np.concatenate(xs)
     y = np.concatenate(ys)
@@ -61,19 +84,31 @@ def spline_many(xs: list[np.ndarray], ys: list[np.ndarray], grids: list[np.ndarr
     lower[i - 1] = dx[i]
     b[i] = 3.0 * (dx[i] * slope[i - 1] + dx[i - 1] * slope[i])
     f = first
-    d0 = x[f + 2] - x[f]
-    diag[f] = dx[f + 1]
-    upper[f] = d0
-    b[f] = ((dx[f] + 2.0 * d0) * dx[f + 1] * slope[f] + dx[f] ** 2 * slope[f + 1]) / d0
     z = last
-    d1 = x[z] - x[z - 2]
-    diag[z] = dx[z - 2]
-    lower[z - 1] = d1
-    b[z] = (dx[z - 1] ** 2 * slope[z - 2] + (2.0 * d1 + dx[z - 1]) * dx[z - 2] * slope[z - 1]) / d1
+    if bc_type == "natural":
+        # zero second derivative at both ends: 2 s0 + s1 = 3 m0 and s(n-2) + 2 s(n-1) = 3 m(n-2),
+        # each row scaled by its interval as scipy writes them
+        diag[f] = 2.0 * dx[f]
+        upper[f] = dx[f]
+        b[f] = 3.0 * (y[f + 1] - y[f])
+        diag[z] = 2.0 * dx[z - 1]
+        lower[z - 1] = dx[z - 1]
+        b[z] = 3.0 * (y[z] - y[z - 1])
+    else:
+        d0 = x[f + 2] - x[f]
+        diag[f] = dx[f + 1]
+        upper[f] = d0
+        b[f] = ((dx[f] + 2.0 * d0) * dx[f + 1] * slope[f] + dx[f] ** 2 * slope[f + 1]) / d0
+        d1 = x[z] - x[z - 2]
+        diag[z] = dx[z - 2]
+        lower[z - 1] = d1
+        b[z] = (dx[z - 1] ** 2 * slope[z - 2] + (2.0 * d1 + dx[z - 1]) * dx[z - 2]
+                * slope[z - 1]) / d1
     _, _, _, s, info = dgtsv(lower, diag, upper, b, overwrite_dl=1, overwrite_d=1,
                              overwrite_du=1, overwrite_b=1)
     if info != 0:  # singular system: never for increasing knots, but stay correct
-        return [_scipy_spline(xv, yv, g) for xv, yv, g in zip(xs, ys, grids, strict=True)]
+        return [_scipy_spline(xv, yv, g, bc_type)
+                for xv, yv, g in zip(xs, ys, grids, strict=True)]
     # interval of every grid point inside its own series, then the Hermite form
     grid = np.concatenate(grids)
     if n < 2 or bool((dx > 0).all()):
