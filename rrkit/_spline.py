@@ -130,12 +130,19 @@ def spline_many(xs: list[np.ndarray], ys: list[np.ndarray], grids: list[np.ndarr
         idx = np.concatenate([
             o + np.clip(np.searchsorted(xv, g, side="right") - 1, 0, xv.size - 2)
             for o, xv, g in zip(first.tolist(), xs, grids, strict=True)])
-    h = dx[idx]
     t = grid - x[idx]
-    m = slope[idx]
     s0 = s[idx]
-    s1 = s[idx + 1]
-    c2 = (3.0 * m - 2.0 * s0 - s1) / h
-    c3 = (s0 + s1 - 2.0 * m) / (h * h)
+    if grid.size > n:
+        # more points than intervals: the coefficients once per interval, then gathered (the
+        # same arithmetic; intervals between two series are never used)
+        with np.errstate(divide="ignore", invalid="ignore"):
+            c2 = ((3.0 * slope - 2.0 * s[:-1] - s[1:]) / dx)[idx]
+            c3 = ((s[:-1] + s[1:] - 2.0 * slope) / (dx * dx))[idx]
+    else:
+        h = dx[idx]
+        m = slope[idx]
+        s1 = s[idx + 1]
+        c2 = (3.0 * m - 2.0 * s0 - s1) / h
+        c3 = (s0 + s1 - 2.0 * m) / (h * h)
     out = y[idx] + t * (s0 + t * (c2 + t * c3))
     return np.split(out, np.cumsum([g.size for g in grids])[:-1])

@@ -155,18 +155,20 @@ def _dfa_block(rg: Ragged, sc: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
                        weights=cnt, minlength=w * nsc).astype(np.int64).reshape(w, nsc)
     if total == 0:
         return np.full((w, nsc), _NAN), nbox
-    pr = np.repeat(np.repeat(np.arange(rs.size), nsc), cnt)
+    # per (run, scale) pair first, then repeated to its boxes: few passes over all the boxes
     ps = np.repeat(np.tile(np.arange(nsc), rs.size), cnt)
     jj = np.arange(total) - np.repeat(np.cumsum(cnt) - cnt, cnt)
     size_i = sc[ps]
-    start = (run_first - off[:-1][rg.run_window])[pr] + jj * size_i  # position in the row
-    row = rg.run_window[pr]
-    base = row * (lmax + 1)
-    size = size_i.astype(float)
-    centre = start + (size - 1.0) / 2.0
-    stt = size * (size * size - 1.0) / 12.0
-    a_at = base + start
+    step = jj * size_i
+    run_start = run_first - off[:-1][rg.run_window]   # position of each run in its row
+    start = np.repeat(np.repeat(run_start, nsc), cnt) + step
+    a_at = np.repeat(np.repeat(rg.run_window * (lmax + 1) + run_start, nsc), cnt) + step
     e_at = a_at + size_i
+    scf = sc.astype(float)
+    size = scf[ps]
+    centre = start + ((scf - 1.0) / 2.0)[ps]
+    stt = (scf * (scf * scf - 1.0) / 12.0)[ps]
+    cell = np.repeat((rg.run_window[:, None] * nsc + np.arange(nsc)[None, :]).ravel(), cnt)
     c_y, c_ky, c_yy = flat  # three contiguous rows: 1-D gathers are the fast ones
     sy = c_y[e_at] - c_y[a_at]
     sky = c_ky[e_at] - c_ky[a_at]
@@ -174,7 +176,7 @@ def _dfa_block(rg: Ragged, sc: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
     sty = sky - centre * sy                          # sum of (k - centre) * y
     ss = syy - sy * sy / size - sty * sty / stt      # residual sum of squares of the line fit
     with np.errstate(invalid="ignore", divide="ignore"):
-        f2 = np.bincount(row * nsc + ps, weights=np.maximum(ss, 0.0) / size,
+        f2 = np.bincount(cell, weights=np.maximum(ss, 0.0) / size,
                          minlength=w * nsc).reshape(w, nsc) / nbox
     return np.sqrt(f2), nbox
 
