@@ -43,7 +43,8 @@ def spline_many(xs: list[np.ndarray], ys: list[np.ndarray], grids: list[np.ndarr
         Knots (strictly increasing) and values of each series: at least 4 knots for
         ``"not-a-knot"``, at least 2 for ``"natural"``.
     grids : list of numpy.ndarray
-        Where to evaluate each series (points outside its knots get the end polynomial).
+        Where to evaluate each series, inside its knots (the points of the series laid end to
+        end must lie between the series' first and the next series' first knot).
     bc_type : {"not-a-knot", "natural"}
         End conditions, as in `scipy.interpolate.CubicSpline`.
 
