@@ -23,6 +23,7 @@ PKG = Path(__file__).resolve().parents[1] / "rrkit"
 RANK = {
     "_version": 0, "errors": 0, "_validation": 0, "_atomic": 0, "_plain": 0, "_time": 0,
     "_breathing": 0,   # breathing rate from R-wave amplitudes: used by io, metrics, analysis
+    "_spline": 0,  # the one cubic spline: cleaning interpolates with it, spectra resample
     "recording": 1,
     "io": 2,
     "clean": 3,

@@ -267,7 +267,7 @@ def test_spline_many_equals_scipy_cubicspline_per_series(rng, overlap):
     # block tridiagonal solve for all of them, series that follow each other or overlap in time
     from scipy.interpolate import CubicSpline
 
-    from rrkit.metrics._spline import spline_many
+    from rrkit._spline import spline_many
 
     xs, ys, grids = [], [], []
     t0 = 0.0
@@ -280,3 +280,37 @@ def test_spline_many_equals_scipy_cubicspline_per_series(rng, overlap):
     for x, y, g, got in zip(xs, ys, grids, spline_many(xs, ys, grids), strict=True):
         want = CubicSpline(x, y, bc_type="not-a-knot")(g)
         assert np.allclose(got, want, rtol=1e-9, atol=1e-9)
+
+
+@pytest.mark.parametrize("overlap", [False, True])
+def test_spline_many_natural_equals_scipy_cubicspline(rng, overlap):
+    # scipy.interpolate.CubicSpline(bc_type="natural") is the reference (zero second derivative
+    # at both ends), series by series, from 2 knots (a line) up; the cleaning interpolates so
+    from scipy.interpolate import CubicSpline
+
+    from rrkit._spline import spline_many
+
+    xs, ys, grids = [], [], []
+    t0 = 0.0
+    for n in (2, 3, 4, 7, 30, 301):
+        x = t0 + np.cumsum(rng.uniform(0.4, 1.3, n))
+        t0 = x[0] + 3.0 if overlap else x[-1] + 0.5
+        xs.append(x)
+        ys.append(900 + 40 * rng.standard_normal(n))
+        grids.append(np.sort(rng.uniform(x[0], x[-1], 3 * n)))
+    got_all = spline_many(xs, ys, grids, bc_type="natural")
+    for x, y, g, got in zip(xs, ys, grids, got_all, strict=True):
+        want = CubicSpline(x, y, bc_type="natural")(g)
+        assert np.allclose(got, want, rtol=1e-9, atol=0)
+        # through the knots themselves
+        assert np.allclose(spline_many([x], [y], [x], bc_type="natural")[0], y, rtol=1e-12)
+
+
+def test_spline_many_rejects_unknown_end_conditions_and_too_few_knots():
+    from rrkit._spline import spline_many
+
+    x = np.arange(3.0)
+    with pytest.raises(ValueError, match="bc_type"):
+        spline_many([x], [x], [x], bc_type="clamped")
+    with pytest.raises(ValueError, match="at least 4 knots"):
+        spline_many([x], [x], [x])

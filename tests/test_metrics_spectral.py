@@ -119,7 +119,7 @@ def test_spline_equals_scipy_cubicspline(rng):
     # rrkit's overhead-free spline against scipy.interpolate.CubicSpline (not-a-knot)
     from scipy.interpolate import CubicSpline
 
-    from rrkit.metrics._spline import spline_on_grid
+    from rrkit._spline import spline_on_grid
 
     for n in (3, 4, 5, 17, 300):
         x = np.cumsum(rng.uniform(0.4, 1.6, n))

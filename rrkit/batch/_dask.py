@@ -181,6 +181,7 @@ class DaskExecutor:
         chunks: dict[str, list] = {}
         ac = as_completed()
         limit = 2 * self.n_workers + 2
+        suspects: list = []
 
         def submit(chunk) -> None:
             key = f"rrkit-{self._tag}-{next(self._counter)}"
@@ -214,11 +215,28 @@ class DaskExecutor:
                 if len(chunk) > 1:  # find the one item that kills its workers
                     for item in chunk:
                         submit([item])
-                elif self._on_broken is None:
-                    raise exc
-                else:
-                    yield self._on_broken(chunk[0], exc)
+                else:  # guilty, or only queued on a worker that another item killed
+                    suspects.append(chunk[0])
             fill()
+        # each suspect alone on the cluster: only an item that kills its worker with nothing
+        # else running is given up (an innocent one queued beside it is never blamed)
+        for item in suspects:
+            key = f"rrkit-{self._tag}-{next(self._counter)}"
+            fut = client.submit(_run_chunk, fn, [item], key=key, pure=False)
+            try:
+                results = fut.result()
+            except KilledWorker as exc:
+                if self._on_broken is None:
+                    raise
+                yield self._on_broken(item, exc)
+            else:
+                yield from results
+            finally:
+                with self._lock:
+                    n_lost = self._lost_keys.pop(key, 0)
+                if n_lost:
+                    self.lost[item] = self.lost.get(item, 0) + n_lost
+                fut.release()
 
     def close(self) -> None:
         if self._starting is not None:

@@ -2,7 +2,9 @@
 
 Everything is built with `numpy.repeat` over per-interval counts and values, so the corrected
 series, its beat times and the map back to the input come out of a few array operations. Python
-loops run only over gap-free segments (to fit one spline each).
+loops run only over gap-free segments (to collect their knots); the natural cubic splines of all
+segments come from one call of the spline used by the spectral resampling
+(`rrkit._spline.spline_many`).
 """
 
 from __future__ import annotations
@@ -10,8 +12,8 @@ from __future__ import annotations
 import logging
 
 import numpy as np
-from scipy.interpolate import CubicSpline
 
+from .._spline import spline_many
 from ..recording import Recording
 from ._detect import ECTOPIC, IMPLAUSIBLE, LONG, NORMAL, SHORT
 
@@ -139,6 +141,7 @@ def _interpolate(rr, t, codes, bad, gaps):
     x_eval = t[run_start][run_id] + (k + 0.5) * (span_s / run_len)[run_id]
 
     normal = (codes == NORMAL) & ~gaps
+    xs, ys, grids, where = [], [], [], []
     for a, b in segments_of(gaps):
         sel = (pos >= a) & (pos < b)
         if not sel.any():
@@ -149,9 +152,16 @@ def _interpolate(rr, t, codes, bad, gaps):
             filled[sel] = rr[pos[sel]]
             continue
         x, y = mid[ok], rr[ok]
-        spline = CubicSpline(x, y, bc_type="natural") if ok.size > 2 else None
         xe = np.clip(x_eval[sel], x[0], x[-1])
-        filled[sel] = spline(xe) if spline is not None else np.interp(xe, x, y)
+        if ok.size > 2:
+            xs.append(x)
+            ys.append(y)
+            grids.append(xe)
+            where.append(sel)
+        else:
+            filled[sel] = np.interp(xe, x, y)
+    for sel, values in zip(where, spline_many(xs, ys, grids, bc_type="natural"), strict=True):
+        filled[sel] = values
     # never produce a non-positive interval from spline overshoot
     filled = np.maximum(filled, 1.0)
     # anchor runs whose span holds as many intervals as they have

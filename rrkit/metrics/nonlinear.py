@@ -155,18 +155,20 @@ def _dfa_block(rg: Ragged, sc: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
                        weights=cnt, minlength=w * nsc).astype(np.int64).reshape(w, nsc)
     if total == 0:
         return np.full((w, nsc), _NAN), nbox
-    pr = np.repeat(np.repeat(np.arange(rs.size), nsc), cnt)
+    # per (run, scale) pair first, then repeated to its boxes: few passes over all the boxes
     ps = np.repeat(np.tile(np.arange(nsc), rs.size), cnt)
     jj = np.arange(total) - np.repeat(np.cumsum(cnt) - cnt, cnt)
     size_i = sc[ps]
-    start = (run_first - off[:-1][rg.run_window])[pr] + jj * size_i  # position in the row
-    row = rg.run_window[pr]
-    base = row * (lmax + 1)
-    size = size_i.astype(float)
-    centre = start + (size - 1.0) / 2.0
-    stt = size * (size * size - 1.0) / 12.0
-    a_at = base + start
+    step = jj * size_i
+    run_start = run_first - off[:-1][rg.run_window]   # position of each run in its row
+    start = np.repeat(np.repeat(run_start, nsc), cnt) + step
+    a_at = np.repeat(np.repeat(rg.run_window * (lmax + 1) + run_start, nsc), cnt) + step
     e_at = a_at + size_i
+    scf = sc.astype(float)
+    size = scf[ps]
+    centre = start + ((scf - 1.0) / 2.0)[ps]
+    stt = (scf * (scf * scf - 1.0) / 12.0)[ps]
+    cell = np.repeat((rg.run_window[:, None] * nsc + np.arange(nsc)[None, :]).ravel(), cnt)
     c_y, c_ky, c_yy = flat  # three contiguous rows: 1-D gathers are the fast ones
     sy = c_y[e_at] - c_y[a_at]
     sky = c_ky[e_at] - c_ky[a_at]
@@ -174,7 +176,7 @@ def _dfa_block(rg: Ragged, sc: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
     sty = sky - centre * sy                          # sum of (k - centre) * y
     ss = syy - sy * sy / size - sty * sty / stt      # residual sum of squares of the line fit
     with np.errstate(invalid="ignore", divide="ignore"):
-        f2 = np.bincount(row * nsc + ps, weights=np.maximum(ss, 0.0) / size,
+        f2 = np.bincount(cell, weights=np.maximum(ss, 0.0) / size,
                          minlength=w * nsc).reshape(w, nsc) / nbox
     return np.sqrt(f2), nbox
 
@@ -290,7 +292,12 @@ def sampen_counts_many(rg: Ragged, m: int, r: np.ndarray) -> tuple[np.ndarray, n
 
 def _sampen_block(rg: Ragged, m: int, r: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
     """Sorted count of one block: each window's values are shifted apart so that no candidate
-    pair spans two windows; candidates are then checked exactly on the original values."""
+    pair spans two windows; candidates are then checked exactly on the original values.
+
+    With ``m >= 2`` the templates are also put in cells of width ``r`` by their second point
+    (a pair within ``r`` there lies in one cell or two neighbouring ones), so the candidates are
+    the pairs close in the first point inside the same or the next cell, not inside the whole
+    window: several times fewer pairs to check, the same pairs found."""
     w = rg.n_windows
     x = rg.rr_ms
     rs = rg.run_sizes
@@ -303,22 +310,41 @@ def _sampen_block(rg: Ragged, m: int, r: np.ndarray) -> tuple[np.ndarray, np.nda
         return a_cnt, b_cnt
     xmin = float(x.min())
     spread = float(x.max() - xmin) + 4.0 * float(r.max()) + 1.0
-    key = (x[starts] - xmin) + win * spread
+    rt = r[win]
+    if m >= 2 and float(r.min()) > 0.0:
+        # cell of the second point, a little wider than r so that rounding never puts two
+        # points within r two cells apart; cells never wrap into the next window
+        cell = np.floor((x[starts + 1] - xmin) / (rt * (1.0 + 1e-9))).astype(np.int64)
+        group = win * (int(cell.max()) + 2) + cell
+    else:
+        group = win
+    key = (x[starts] - xmin) + group * spread
     order = np.argsort(key, kind="stable")
     ks = key[order]
     st = starts[order]
     cols = [x[st + k] for k in range(m + 1)]       # template points in sorted order
     ws = win[order]
-    rw = r[ws]
-    slack = 8.0 * np.finfo(float).eps * (w * spread)  # a few ulps of the largest key
-    hi = np.searchsorted(ks, ks + rw * (1 + 1e-12) + slack, side="right")
-    counts = hi - np.arange(ks.size) - 1
+    rw = rt[order]
+    slack = 8.0 * np.finfo(float).eps * float(ks[-1] + spread)  # a few ulps of the largest key
+    reach = rw * (1 + 1e-12) + slack
+    first = np.arange(ks.size)
+    hi = np.searchsorted(ks, ks + reach, side="right")
+    counts = hi - first - 1                        # later templates of the same group
+    if group is not win:                           # and the templates of the next cell
+        lo2 = np.searchsorted(ks, ks + spread - reach, side="left")
+        hi2 = np.searchsorted(ks, ks + spread + reach, side="right")
+        counts2 = hi2 - lo2
+        pstart = np.concatenate((first + 1, lo2))
+        counts = np.concatenate((counts, counts2))
+        owner = np.concatenate((first, first))
+    else:
+        pstart = first + 1
+        owner = first
     total = int(counts.sum())
     if total:
-        pi = np.repeat(np.arange(ks.size), counts)
-        pj = np.arange(total) + np.repeat(np.arange(1, ks.size + 1) - (np.cumsum(counts) - counts),
-                                          counts)
-        rp = np.repeat(rw, counts)
+        pi = np.repeat(owner, counts)
+        pj = np.arange(total) + np.repeat(pstart - (np.cumsum(counts) - counts), counts)
+        rp = rw[pi]
         # the later points first (they reject most candidates), then the first point exactly
         # (the candidates were found on shifted keys with a little slack)
         order_k = [*range(1, m), 0]

@@ -51,9 +51,9 @@ from functools import lru_cache
 import numpy as np
 
 from .._breathing import PLAUSIBLE_BREATHING_HZ
+from .._spline import spline_many, spline_on_grid
 from ._ragged import Ragged
 from ._settings import MetricsSettings
-from ._spline import spline_many, spline_on_grid
 
 __all__ = [
     "FREQUENCY_KEYS",
@@ -114,7 +114,7 @@ def resample(times_s: np.ndarray, nn_ms: np.ndarray, fs_hz: float) -> np.ndarray
 
     The grid starts at the first time and has ``floor((t_last - t_first) * fs_hz) + 1`` samples.
     The interpolant is ``scipy.interpolate.CubicSpline(..., bc_type="not-a-knot")``, computed
-    without its per-call overhead (`rrkit.metrics._spline`).
+    without its per-call overhead (`rrkit._spline`).
     """
     return spline_on_grid(times_s, nn_ms, _grid(times_s, fs_hz))
 
