@@ -210,8 +210,9 @@ class DaskExecutor:
             else:
                 exc = fut.exception()
                 fut.release()
-                if not isinstance(exc, KilledWorker):
+                if exc is not None and not isinstance(exc, KilledWorker):
                     raise exc
+                # KilledWorker, or a future the cluster lost or cancelled with its worker
                 if len(chunk) > 1:  # find the one item that kills its workers
                     for item in chunk:
                         submit([item])
