@@ -32,6 +32,8 @@ def _val(t: dict[str, Any]) -> str:
         return _x(v)
     if t["unit"] == "MB":
         return f"{v:.0f} MB"
+    if t["unit"] == "s":
+        return f"{v:.2f} s"
     return f"{v:.2f}"
 
 
@@ -41,6 +43,8 @@ def _limit(t: dict[str, Any]) -> str:
         return f"{t['op']} {lim:g}x"
     if t["unit"] == "MB":
         return f"{t['op']} {lim:g} MB"
+    if t["unit"] == "s":
+        return f"{t['op']} {lim:g} s"
     return f"{t['op']} {lim:g}"
 
 
