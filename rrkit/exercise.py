@@ -79,8 +79,9 @@ class RampSettings:
         Windows above this share (default 3, the same source) stay in the fit but are marked;
         when most fit windows are above it the verdict is at best ``uncertain``.
     fit_alpha : tuple of float
-        The descending part that is fitted: windows up to the highest heart rate whose alpha1
-        lies in this range (default 0.4 to 1.0).
+        The descending part that is fitted (default 0.4 to 1.0): the valid windows up to the
+        highest heart rate, after the last one whose smoothed alpha1 is still at or above the
+        upper value and up to the last one still at or above the lower value.
     min_windows : int
         Fewer valid windows in the fit than this: ``not found`` (default 12, one minute of 5-s
         steps; rrkit's choice).
@@ -396,12 +397,14 @@ def ramp_test(
                           .median().to_numpy())
     lo, hi = s.fit_alpha
     in_fit = np.zeros(len(out), bool)
-    below_hi = ok_idx[smooth[ok_idx] <= hi]
-    if below_hi.size:
-        first = below_hi[0]
-        above_lo = ok_idx[(ok_idx >= first) & (smooth[ok_idx] >= lo)]
-        if above_lo.size:
-            in_fit[ok_idx[(ok_idx >= first) & (ok_idx <= above_lo[-1])]] = True
+    # the final descent: it ends at the last window still at or above `lo` and starts after
+    # the last window before that at or above `hi` (an early dip below `hi` is not the descent)
+    above_lo = ok_idx[smooth[ok_idx] >= lo]
+    if above_lo.size:
+        last = above_lo[-1]
+        high = ok_idx[(ok_idx < last) & (smooth[ok_idx] >= hi)]
+        first = high[-1] + 1 if high.size else ok_idx[0]
+        in_fit[ok_idx[(ok_idx >= first) & (ok_idx <= last)]] = True
     out["alpha1_smooth"] = smooth
     out["in_fit"] = in_fit
     rows, fits = [], {}
