@@ -227,6 +227,7 @@ def render_report(run: RunFiles, *, week=None, load=None, phases=None, title=Non
         "status_rank": _STATUS_RANK,
         "swc_sd": _setting(run.settings, "baselines.swc_sd", 0.5),
         "baseline_days": _setting(run.settings, "baselines.baseline_days", 60),
+        "baseline_lag": _setting(run.settings, "baselines.baseline_lag_days", 7),
         "baseline_min": _setting(run.settings, "baselines.baseline_min_days", 14),
         "rolling_min": _setting(run.settings, "baselines.rolling_min_days", 3),
         "key_settings": _key_settings(run.settings),
