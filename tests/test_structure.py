@@ -167,9 +167,10 @@ def test_one_band_edge_changes_cache_store_and_provenance(tmp_path):
         assert cache[0].startswith(settings_hash(s)[:16])
         assert store == s.digest()
         assert stored["metrics"]["bands"]["hf"] == [0.15, hf_hi]
-        assert prov["settings_sha256"] == settings_hash(s)
+        assert prov["settings_sha256"] == store  # provenance and store: the same digest
+        assert prov["cache_key_sha256"] == settings_hash(s)
         assert prov["settings"] == s.to_plain()
-        seen.append((cache[0], store, prov["settings_sha256"]))
+        seen.append((cache[0], store, prov["cache_key_sha256"]))
     assert all(a != b for a, b in zip(*seen, strict=True))
 
 

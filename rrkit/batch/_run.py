@@ -422,7 +422,10 @@ def _provenance(root, disc, s, digest, hashed, status, results, outputs, summary
         "manifest": disc.manifest,
         "pattern": disc.pattern,
         "settings": s.to_dict(),
-        "settings_sha256": digest,
+        # the digest of the whole settings tree (the store's settings_sha256), and the resume
+        # cache's key: the digest of the part that decides one file's result
+        "settings_sha256": s.digest(),
+        "cache_key_sha256": digest,
         "counts": {"files": summary.n_files, "done": summary.n_done,
                    "skipped": summary.n_skipped, "failed": summary.n_failed,
                    "ignored": summary.n_ignored},
