@@ -15,12 +15,14 @@ local safety practice and qualified supervision.
 
 from __future__ import annotations
 
+import dataclasses
 import math
-from dataclasses import asdict, dataclass, field
+from dataclasses import dataclass, field
 from typing import Any
 
 import numpy as np
 
+from ._plain import to_plain
 from ._validation import check_int, check_range
 from ._version import __version__
 from .clean import CleanResult, CleanSettings
@@ -49,10 +51,6 @@ RAMP_CAUTION = (
 #: extra and premature beat (tests/test_exercise.py); the value 2 is rrkit's own choice.
 EXERCISE_CLEANING = CleanSettings(method="drr", drr_min_mrr=2.0)
 
-# artifact beats per flagged interval: a premature or an extra beat touches two intervals and
-# counts once; a missed beat hides one beat in one interval; any other flagged interval counts once
-_BEATS_PER_LABEL = {"ectopic": 0.5, "extra": 0.5, "missed": 1.0, "long": 1.0, "short": 1.0,
-                    "implausible": 1.0}
 
 
 @dataclass(frozen=True, slots=True)
@@ -126,9 +124,6 @@ class RampSettings:
         check_range("max_ci_rel", self.max_ci_rel, low=0.0, low_inclusive=False)
         check_int("n_boot", self.n_boot, low=100)
 
-    def to_dict(self) -> dict[str, Any]:
-        """Plain values (for JSON provenance)."""
-        return asdict(self)
 
 
 @dataclass(frozen=True, slots=True)
@@ -163,17 +158,14 @@ class RampResult:
 
     def provenance(self) -> dict[str, Any]:
         """Settings and version, for the files the command writes."""
-        return {"rrkit": __version__, "settings": self.settings.to_dict(), "fits": self.fits,
+        return {"rrkit": __version__, "settings": to_plain(self.settings), "fits": self.fits,
                 "intervals": self.interval_name}
 
 
 def _artifact_beats_pct(cr: CleanResult | None, start_s, end_s, n_beats) -> np.ndarray:
     if cr is None:
         return np.zeros(len(start_s))
-    labels = np.asarray(cr.labels)
-    w = np.zeros(labels.size)
-    for name, k in _BEATS_PER_LABEL.items():
-        w[labels == name] = k
+    w = cr.artifact_beats()
     t_end = cr.input.beat_times_s[1:]      # an interval belongs where it ends
     cum = np.concatenate([[0.0], np.cumsum(w)])
     i0 = np.searchsorted(t_end, np.asarray(start_s), side="right")
@@ -338,7 +330,7 @@ def ramp_test(
 
     s = settings or RampSettings()
     if window is not None:
-        s = RampSettings(**{**s.to_dict(), "window": window})
+        s = dataclasses.replace(s, window=window)
     text = s.window.strip()
     spec = parse_window(f"slide:{text}" if text[:1].isdigit() else text)
     if not isinstance(spec, Sliding):

@@ -139,6 +139,27 @@ class CleanResult:
             arr.flags.writeable = False
             object.__setattr__(self, name, arr)
 
+    def artifact_beats(self) -> np.ndarray:
+        """How many artifact beats each input interval stands for (float, one per interval).
+
+        The one counting rule in beats: a premature beat labels two intervals (the early one
+        and the pause after it) and an extra beat splits one true interval in two, so each of
+        those intervals counts one half; a missed-beat interval counts the beats put back into
+        it (split into k parts: k - 1); a long, short or implausible interval counts one; a
+        normal interval none.
+        """
+        labels = np.asarray(self.labels)
+        out = np.zeros(labels.size)
+        out[(labels == "ectopic") | (labels == "extra")] = 0.5
+        out[(labels == "long") | (labels == "short") | (labels == "implausible")] = 1.0
+        missed = labels == "missed"
+        if missed.any():
+            origin = np.asarray(self.origin)
+            parts = (np.bincount(origin, minlength=labels.size) if origin.size
+                     else np.ones(labels.size))
+            out[missed] = np.maximum(parts[missed] - 1, 1)
+        return out
+
     def window(self, start_s: float | None, end_s: float | None) -> CleanResult:
         """The part of this result whose input beats lie in ``[start_s, end_s]`` (seconds).
 

@@ -38,7 +38,7 @@ def summary_lines(result: CleanResult) -> list[str]:
              f"  {'intervals':<{_W}}{s.n_intervals} {interval_name(result)} intervals"
              + (f" (plus {int(result.input.gaps.sum())} gap intervals, left alone)"
                 if result.input.has_gaps else "")]
-    from ..plots._diagnostic import audit_rows
+    from ..plots import audit_rows
 
     def share(n: int) -> str:
         return f"{100.0 * n / s.n_intervals if s.n_intervals else 0.0:.1f}%"

@@ -12,6 +12,7 @@ from __future__ import annotations
 
 import json
 import time
+from datetime import timedelta
 from pathlib import Path
 
 import click
@@ -303,6 +304,8 @@ def _report(out: Path, *, load, meta) -> Path:
 def _modelling(folder: Path, out: Path, table, *, note) -> str:
     """Sleep and load against the mornings, within vs between athletes vs a naive pooled fit,
     with what the simulation planted; writes model/ (tables, figures). Empty without the log."""
+    import pandas as pd
+
     from .. import covariates as cov
     from ..model import CAUTION, compare_pooled, plain_lines, write_outputs
     from ..simulate import _squad_log as planted
@@ -327,8 +330,8 @@ def _modelling(folder: Path, out: Path, table, *, note) -> str:
     write_outputs(fit_sleep, folder_out, partial_term="sleep_h_within",
                   lines=sleep_lines + load_lines)
     _write_csv(folder_out / "within_between_pooled.csv",
-               __import__("pandas").concat([sleep.assign(outcome="ln_rmssd"),
-                                            load.assign(outcome="wellness_pts")]))
+               pd.concat([sleep.assign(outcome="ln_rmssd"),
+                          load.assign(outcome="wellness_pts")]))
     note(f"modelling: within vs between athletes vs pooled, in {folder_out}")
     half = planted.SLEEP_WITHIN_LN_PER_H / 2
     lines = ["", "Modelling the season (rrkit model; the simulation planted the true relations):",
@@ -374,7 +377,7 @@ def _summary(run, *, lab, agree, ectopy, figures, out, meta, folder, report=None
                                                                    "missing")))
     lines.append(f"  files: {run.counts_line()}")
     # below band this week
-    week_start = last - __import__("datetime").timedelta(days=last.weekday())
+    week_start = last - timedelta(days=last.weekday())
     this_week = table[(table["date"] >= week_start) & table["below_swc"].fillna(False)]
     lines.append("")
     lines.append(f"Below their ln-RMSSD SWC band this week (from {week_start}):")

@@ -7,7 +7,7 @@ from pathlib import Path
 
 import numpy as np
 
-from .._atomic import atomic_path, atomic_write_text
+from .._atomic import atomic_write_text
 from ..covariates import parse_term, term_label
 from ..errors import InputError
 
@@ -81,23 +81,12 @@ def _labels(terms, units) -> list[str]:
     return out
 
 
-def _save(fig, path) -> Path:
-    out = Path(path)
-    suffix = out.suffix.lower()
-    if suffix not in (".png", ".svg", ".pdf"):
-        raise InputError(f"figure path {str(out)!r} must end in .png, .svg or .pdf")
-    out.parent.mkdir(parents=True, exist_ok=True)
-    with atomic_path(out, fsync=False) as tmp:
-        fig.savefig(tmp, format=suffix[1:], dpi=120, facecolor="white")
-    return out
-
-
 def plot_coefficients(result, path=None):
     """Forest figure: each term's effect per step (the round step of the table's ``unit``
     column, near one SD of the term) with its 95% CI, for each fit of the result."""
     import textwrap
 
-    from ..plots._style import OKABE_ITO, new_figure
+    from ..plots._style import OKABE_ITO, new_figure, save
 
     coef = result.coefficients[result.coefficients["term"] != "Intercept"].copy()
     fits = list(dict.fromkeys(zip(coef["model"], coef["subject"], strict=True)))
@@ -136,14 +125,14 @@ def plot_coefficients(result, path=None):
     if n > 1:
         ax.legend(fontsize=7.5, frameon=False, loc="upper left", bbox_to_anchor=(1.01, 1.0))
     if path is not None:
-        _save(fig, path)
+        save(fig, path)
     return fig
 
 
 def plot_partial(result, term: str, path=None):
     """Partial-effect figure for one term: partial residuals against the term, with the fitted
     line and its 95% confidence band (first fit of the result: the mixed model for a squad)."""
-    from ..plots._style import OKABE_ITO, new_figure
+    from ..plots._style import OKABE_ITO, new_figure, save
 
     if term not in result.terms:
         raise InputError(f"partial effect: {term!r} is not a term of {result.formula!r}")
@@ -197,7 +186,7 @@ def plot_partial(result, term: str, path=None):
         ax.legend(fontsize=7, frameon=False, loc="upper left", bbox_to_anchor=(1.01, 1.0))
     del phrase
     if path is not None:
-        _save(fig, path)
+        save(fig, path)
     return fig
 
 

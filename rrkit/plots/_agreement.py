@@ -2,13 +2,10 @@
 
 from __future__ import annotations
 
-from pathlib import Path
-
 import numpy as np
 
-from .._atomic import atomic_path
 from ..errors import InputError
-from ._style import INK, new_figure
+from ._style import INK, new_figure, save
 
 __all__ = ["bland_altman", "line_label"]
 
@@ -229,18 +226,5 @@ def bland_altman(result, *, path=None, ax=None, title: str | None = None,
                   title="subject" if len(names) > 1 else None, title_fontsize=8,
                   alignment="left")
     if path is not None:
-        _atomic_save(fig, path, dpi=dpi)
+        save(fig, path, dpi=dpi, tight=True)
     return fig
-
-
-def _atomic_save(fig, path, *, dpi: int) -> Path:
-    out = Path(path)
-    suffix = out.suffix.lower()
-    if suffix not in (".png", ".svg", ".pdf"):
-        raise InputError(f"figure path {str(out)!r} must end in .png, .svg or .pdf; got "
-                         f"{suffix or 'no suffix'!r}")
-    out.parent.mkdir(parents=True, exist_ok=True)
-    # the temporary name does not end in the figure's suffix: say the format
-    with atomic_path(out, fsync=False) as tmp:
-        fig.savefig(tmp, format=suffix[1:], dpi=dpi, facecolor="white", bbox_inches="tight")
-    return out

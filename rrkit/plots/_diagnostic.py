@@ -63,8 +63,6 @@ def audit_rows(result) -> list[AuditRow]:
     labels = np.asarray(result.labels)
     raw = result.input
     t_int = raw.interval_times_s
-    origin = np.asarray(result.origin)
-    parts = np.bincount(origin, minlength=labels.size) if origin.size else np.ones(labels.size)
     rows = []
     for name in _ORDER:
         idx = np.flatnonzero(labels == name)
@@ -78,7 +76,7 @@ def audit_rows(result) -> list[AuditRow]:
             times = raw.beat_times_s[beats] if beats.size else t_int[idx]
             text = f"{_plural(n_beats, 'premature beat')} ({_plural(n_int, 'interval')})"
         elif name == "missed":
-            n_beats = int(np.sum(np.maximum(parts[idx] - 1, 1)))
+            n_beats = int(result.artifact_beats()[idx].sum())
             times = t_int[idx]
             text = (f"{_plural(n_beats, 'missed beat')} restored "
                     f"({_plural(n_int, 'interval')} split)")

@@ -2,13 +2,9 @@
 
 from __future__ import annotations
 
-from pathlib import Path
-
 import numpy as np
 
-from .._atomic import atomic_path
-from ..errors import InputError
-from ._style import LABEL_STYLE, OKABE_ITO, new_figure
+from ._style import LABEL_STYLE, OKABE_ITO, new_figure, save
 
 __all__ = ["paired_recordings"]
 
@@ -105,12 +101,5 @@ def paired_recordings(comparison, *, path=None, width_in: float = 10.0, height_i
     bottom.set_ylabel(f"device - reference\n{name} interval (ms)")
     bottom.grid(axis="y", color=OKABE_ITO["grey"], alpha=0.3, lw=0.5)
     if path is not None:
-        out = Path(path)
-        suffix = out.suffix.lower()
-        if suffix not in (".png", ".svg", ".pdf"):
-            raise InputError(f"figure path must end in .png, .svg or .pdf; got "
-                             f"{suffix or 'no suffix'!r}", path=out)
-        out.parent.mkdir(parents=True, exist_ok=True)
-        with atomic_path(out, fsync=False) as tmp:
-            fig.savefig(tmp, format=suffix[1:], dpi=dpi, facecolor="white", bbox_inches="tight")
+        save(fig, path, dpi=dpi, tight=True)
     return fig

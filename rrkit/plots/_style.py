@@ -62,9 +62,24 @@ def new_figure(width_in: float, height_in: float):
     return fig
 
 
-def save(fig, path, *, dpi: int = 120) -> Path:
-    """Write ``fig`` (PNG, or SVG/PDF by the suffix) and return the path."""
+def save(fig, path, *, dpi: int = 120, tight: bool = False) -> Path:
+    """Write ``fig`` atomically (PNG, SVG or PDF by the suffix) and return the path.
+
+    The one writer of every rrkit figure: the suffix is checked first, the figure is rendered
+    into a temporary file beside the target and moved into place (`rrkit._atomic`), so a reader
+    never sees half a figure. ``tight`` crops to the drawn content (``bbox_inches="tight"``).
+    """
+    from .._atomic import atomic_path
+    from ..errors import InputError
+
     out = Path(path)
+    suffix = out.suffix.lower()
+    if suffix not in (".png", ".svg", ".pdf"):
+        raise InputError(f"figure path {str(out)!r} must end in .png, .svg or .pdf; got "
+                         f"{suffix or 'no suffix'!r}")
     out.parent.mkdir(parents=True, exist_ok=True)
-    fig.savefig(out, dpi=dpi, facecolor="white")
+    # the temporary name does not end in the figure's suffix: say the format
+    with atomic_path(out, fsync=False) as tmp:
+        fig.savefig(tmp, format=suffix[1:], dpi=dpi, facecolor="white",
+                    bbox_inches="tight" if tight else None)
     return out
