@@ -7,7 +7,10 @@ import base64
 import math
 import tempfile
 from dataclasses import dataclass
+from datetime import date
 from pathlib import Path
+
+from ..daily import flag_runs
 
 __all__ = ["Embedded", "overview_figure", "trend_figure"]
 
@@ -69,8 +72,8 @@ def trend_figure(table, cols, subject: str, *, week, row, load=None, phases=None
     png = _png(athlete_trend, table, subject, load=load, phases=phases)
     mine = table[table[cols["subject"]].astype(str) == subject]
     q = mine[cols["quality"]].astype(str)
-    below = mine[cols["ln_below"]].fillna(False).astype(bool)
-    runs = _runs(list(mine[cols["date"]]), list(below))
+    runs = [(date.fromisoformat(a[:10]), date.fromisoformat(b[:10])) for found in
+            flag_runs(mine, column=cols["ln_below"]).values() for a, b in found]
     if math.isfinite(row.ln_7d):
         now = f"7-day mean {row.ln_7d:.2f} on {_date(week.as_of)}"
         if math.isfinite(row.ln_low):
@@ -95,16 +98,3 @@ def _word(status: str) -> str:
     from ._week import STATUS_TEXT
 
     return STATUS_TEXT[status][1]
-
-
-def _runs(dates, flags) -> list[tuple]:
-    """(first, last) date of each run of consecutive flagged rows."""
-    out, start = [], None
-    for i, f in enumerate(flags):
-        if f and start is None:
-            start = i
-        if start is not None and (not f or i == len(flags) - 1):
-            end = i if f else i - 1
-            out.append((dates[start], dates[end]))
-            start = None
-    return out
